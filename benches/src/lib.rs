@@ -1,0 +1,1 @@
+//! Benchmarks for plumbfit (criterion benches live in `benches/`).

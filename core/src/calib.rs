@@ -1,0 +1,2 @@
+//! (being written)
+#![allow(missing_docs)]

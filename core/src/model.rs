@@ -1,0 +1,1 @@
+//! Streaming least squares for p-parameter linear models (being written).
