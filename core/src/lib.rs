@@ -60,3 +60,8 @@ pub mod state;
 
 pub use line::{FitOptions, LineError, LineFit, WeightMeaning};
 pub use moments::{Full, FullMoments, Lean, LeanMoments, MomentsError, PairMoments, Tier};
+
+// The README's Rust snippets are compiled and run as doc tests.
+#[cfg(doctest)]
+#[doc = include_str!("../../README.md")]
+struct ReadmeSnippets;
