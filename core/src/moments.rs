@@ -973,6 +973,43 @@ pub struct Frame {
 }
 
 impl PairMoments<Full> {
+    /// Centred co-moments of `(x, y)`: `m[p][q] = Σw(x − x̄)^p (y − ȳ)^q` for
+    /// `2 <= p + q <= 4` (other entries 0), converted from the frame.
+    ///
+    /// For residual statistics prefer the frame quantities (see
+    /// [`crate::diag`]): converting to `y` reintroduces the cancellation the
+    /// frame avoids when the fit is nearly perfect.
+    ///
+    /// # Errors
+    /// [`MomentsError::Overflow`] if committing staged pairs overflows.
+    pub fn comoments(&self) -> Result<[[f64; 5]; 5], MomentsError> {
+        let f = self.flushed()?;
+        let b0 = f.b0;
+        let mut m = reframe_higher(&f.hi.m, f.sxx, f.sxv, f.svv, b0);
+        m[2][0] = f.sxx;
+        m[1][1] = f.sxv + b0 * f.sxx;
+        m[0][2] = f.svv + 2.0 * b0 * f.sxv + b0 * b0 * f.sxx;
+        Ok(m)
+    }
+
+    /// Lag-1 difference sums `[ΣΔx², ΣΔxΔy, ΣΔy²]` over consecutive pairs
+    /// (unweighted; scaled by forgetting like every other sum).
+    ///
+    /// # Errors
+    /// [`MomentsError::Overflow`] if committing staged pairs overflows.
+    pub fn lag_sums(&self) -> Result<[f64; 3], MomentsError> {
+        let f = self.flushed()?;
+        let mut lag = f.hi.lag;
+        reframe_lag(&mut lag, f.b0);
+        Ok(lag)
+    }
+
+    /// First and last pair in time order, or `None` when empty.
+    pub fn ends(&self) -> Option<((f64, f64), (f64, f64))> {
+        let f = self.flushed().ok()?;
+        (f.count > 0).then_some((f.hi.first, f.hi.last))
+    }
+
     /// Smallest and largest x, or `None` when empty.
     pub fn x_range(&self) -> Option<(f64, f64)> {
         let f = self.flushed().ok()?;
