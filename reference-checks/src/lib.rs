@@ -10,7 +10,10 @@ use serde_json::Value;
 use std::collections::BTreeMap;
 use std::path::PathBuf;
 
+pub mod models;
 pub mod strd;
+
+pub use models::{run_model_checks, MODEL_DATASETS};
 
 /// Digits printed in the certified values: the LRE cap.
 pub const LRE_CAP: f64 = 15.0;
@@ -226,5 +229,6 @@ pub fn min_lre(report: &Report) -> f64 {
 /// Runs every reference check into `report`.
 pub fn run_all(report: &mut Report) -> Result<(), String> {
     run_line_checks(report)?;
+    run_model_checks(report)?;
     Ok(())
 }
