@@ -1,0 +1,162 @@
+//! Status numbers returned by every fallible entry point.
+//!
+//! The numbers are the core errors' stable `code()` values; the C door adds
+//! its own argument errors (60–79) and the boundary conditions (900, 901).
+//! Ranges: 1–99 caller errors, 100–199 numerical conditions, 900+ internal.
+//! Numbers are never reused; a retired number stays reserved.
+
+use core::ffi::c_char;
+
+/// Result of a fallible call: `PF_OK` (0) or one of the `PF_ERR_*` numbers.
+///
+/// A plain 32-bit number (not a C enum) so that new numbers can be added
+/// without changing the type's size; switch on the `PF_ERR_*` macros and
+/// treat unknown numbers as failures.
+pub type pf_status = u32;
+
+/// Success.
+pub const PF_OK: pf_status = 0;
+/// A value (x, y, a weight, or an argument such as a prediction point) is
+/// NaN or infinite. The accumulator is unchanged.
+pub const PF_ERR_NON_FINITE: pf_status = 1;
+/// A weight is zero, negative or not finite.
+pub const PF_ERR_INVALID_WEIGHT: pf_status = 2;
+/// Input lengths differ.
+pub const PF_ERR_LENGTH_MISMATCH: pf_status = 3;
+/// Input arrays are empty (length 0).
+pub const PF_ERR_EMPTY_INPUT: pf_status = 4;
+/// A forgetting factor outside (0, 1].
+pub const PF_ERR_INVALID_FORGETTING: pf_status = 5;
+/// A confidence level outside (0, 1).
+pub const PF_ERR_INVALID_LEVEL: pf_status = 6;
+/// A replicate count of zero.
+pub const PF_ERR_INVALID_COUNT: pf_status = 7;
+/// A required pointer argument is NULL.
+pub const PF_ERR_NULL_POINTER: pf_status = 60;
+/// Caller storage or an output array is too small.
+pub const PF_ERR_BUFFER_TOO_SMALL: pf_status = 61;
+/// Caller storage or an input array is not aligned as required.
+pub const PF_ERR_MISALIGNED: pf_status = 62;
+/// The pointer is not a live handle of the expected kind (never
+/// initialised, already freed, or a different object).
+pub const PF_ERR_BAD_HANDLE: pf_status = 63;
+/// The two accumulators have different tiers (lean and full).
+pub const PF_ERR_TIER_MISMATCH: pf_status = 64;
+/// An argument has a value outside its documented set (unknown tier, unknown
+/// option bits, a length too large to address).
+pub const PF_ERR_BAD_ARGUMENT: pf_status = 65;
+/// The query needs a full-tier accumulator.
+pub const PF_ERR_NEEDS_FULL_TIER: pf_status = 66;
+/// `_free` was called on a handle that lives in caller storage.
+pub const PF_ERR_IN_PLACE_HANDLE: pf_status = 67;
+/// The library could not allocate memory for a new handle (use caller
+/// storage with `_init_in` to avoid the heap).
+pub const PF_ERR_OUT_OF_MEMORY: pf_status = 68;
+/// A moment or a result would overflow.
+pub const PF_ERR_OVERFLOW: pf_status = 100;
+/// Too few points (pairs) for the requested quantity.
+pub const PF_ERR_TOO_FEW_POINTS: pf_status = 101;
+/// All x values are equal; the slope is undefined.
+pub const PF_ERR_NO_SPREAD: pf_status = 102;
+/// Internal error: a panic inside the library was caught at the boundary.
+pub const PF_ERR_PANIC: pf_status = 900;
+/// The handle was poisoned by an earlier internal error; free or
+/// re-initialise it.
+pub const PF_ERR_POISONED: pf_status = 901;
+
+/// Maps a core error's stable code to a status number.
+pub(crate) const fn from_code(code: u16) -> pf_status {
+    code as pf_status
+}
+
+/// The message for a status number (statically allocated, NUL-terminated).
+fn message(status: u32) -> &'static str {
+    match status {
+        PF_OK => "ok\0",
+        PF_ERR_NON_FINITE => "non-finite value\0",
+        PF_ERR_INVALID_WEIGHT => "weight is not a positive finite number\0",
+        PF_ERR_LENGTH_MISMATCH => "input lengths differ\0",
+        PF_ERR_EMPTY_INPUT => "input is empty\0",
+        PF_ERR_INVALID_FORGETTING => "forgetting factor must lie in (0, 1]\0",
+        PF_ERR_INVALID_LEVEL => "confidence level must lie in (0, 1)\0",
+        PF_ERR_INVALID_COUNT => "replicate count must be at least 1\0",
+        PF_ERR_NULL_POINTER => "null pointer argument\0",
+        PF_ERR_BUFFER_TOO_SMALL => "buffer too small\0",
+        PF_ERR_MISALIGNED => "buffer misaligned\0",
+        PF_ERR_BAD_HANDLE => "not a live handle of this kind\0",
+        PF_ERR_TIER_MISMATCH => "accumulators have different tiers\0",
+        PF_ERR_BAD_ARGUMENT => "argument outside its documented values\0",
+        PF_ERR_NEEDS_FULL_TIER => "query needs a full-tier accumulator\0",
+        PF_ERR_IN_PLACE_HANDLE => "handle lives in caller storage; it is not freed\0",
+        PF_ERR_OUT_OF_MEMORY => "out of memory\0",
+        PF_ERR_OVERFLOW => "overflow; values too large\0",
+        PF_ERR_TOO_FEW_POINTS => "too few points\0",
+        PF_ERR_NO_SPREAD => "x has no spread; slope undefined\0",
+        PF_ERR_PANIC => "internal error (caught at the C boundary)\0",
+        PF_ERR_POISONED => "handle poisoned by an earlier internal error\0",
+        _ => "unknown status\0",
+    }
+}
+
+/// A short English description of `status` (any number, known or not).
+///
+/// Returns a static NUL-terminated string owned by the library; never NULL,
+/// never to be freed. Unknown numbers give "unknown status". The wording is
+/// for people and may change; switch on the numbers. Thread-safe.
+#[no_mangle]
+pub extern "C" fn pf_status_str(status: u32) -> *const c_char {
+    message(status).as_ptr().cast()
+}
+
+#[cfg(test)]
+#[allow(clippy::unwrap_used, clippy::panic)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn every_message_is_nul_terminated_and_known_codes_differ_from_unknown() {
+        for s in (0..1000).chain([u32::MAX]) {
+            let m = message(s);
+            assert!(m.ends_with('\0'));
+            assert_eq!(m.find('\0'), Some(m.len() - 1));
+        }
+        assert_eq!(message(12345), "unknown status\0");
+        assert_ne!(message(PF_ERR_POISONED), "unknown status\0");
+    }
+
+    #[test]
+    fn core_codes_map_to_the_named_statuses() {
+        use pf_core::{LineError, MomentsError};
+        // The mapping is the identity on the documented table (DEVELOPERS.md).
+        assert_eq!(
+            from_code(MomentsError::NonFinite { index: 3 }.code()),
+            PF_ERR_NON_FINITE
+        );
+        assert_eq!(
+            from_code(MomentsError::InvalidWeight { index: 0 }.code()),
+            PF_ERR_INVALID_WEIGHT
+        );
+        assert_eq!(
+            from_code(MomentsError::EmptyInput.code()),
+            PF_ERR_EMPTY_INPUT
+        );
+        assert_eq!(
+            from_code(MomentsError::InvalidForgetting.code()),
+            PF_ERR_INVALID_FORGETTING
+        );
+        assert_eq!(from_code(MomentsError::Overflow.code()), PF_ERR_OVERFLOW);
+        assert_eq!(
+            from_code(LineError::InvalidLevel.code()),
+            PF_ERR_INVALID_LEVEL
+        );
+        assert_eq!(
+            from_code(LineError::InvalidCount.code()),
+            PF_ERR_INVALID_COUNT
+        );
+        assert_eq!(from_code(LineError::NoSpread.code()), PF_ERR_NO_SPREAD);
+        assert_eq!(
+            from_code(LineError::TooFewPoints { needed: 3, have: 1 }.code()),
+            PF_ERR_TOO_FEW_POINTS
+        );
+    }
+}

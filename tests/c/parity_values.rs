@@ -1,0 +1,228 @@
+//! Reference values for `tests/c/test_line.c`, computed by the Rust core
+//! directly (not through the C door), printed as exact bit patterns.
+//!
+//! Output: `data <n>`, then `n` lines `<x> <y> <w>` (hex of the f64 bits),
+//! then `value <name> <hex>` lines in the order the C test recomputes them
+//! through the C ABI. The C test compares every value bit for bit.
+//! The data are invented (a fixed pseudo-random sequence).
+
+// A helper program: failing loudly on an unexpected error is what we want.
+#![allow(clippy::unwrap_used)]
+
+use pf_core::line::{Anova, Interval};
+use pf_core::{FitOptions, LineFit, PairMoments, Tier, WeightMeaning};
+use pf_core::{Full, Lean};
+
+fn bits(v: f64) -> String {
+    format!("{:016x}", v.to_bits())
+}
+
+struct Out(Vec<String>);
+
+impl Out {
+    fn f(&mut self, name: &str, v: f64) {
+        self.0.push(format!("value {name} {}", bits(v)));
+    }
+    fn n(&mut self, name: &str, v: u64) {
+        self.0.push(format!("value {name} {v:016x}"));
+    }
+    fn fit(&mut self, p: &str, f: &LineFit) {
+        // Field order of `pf_fitted_line` in the header; names are the C ones.
+        self.n(&format!("{p}.through_origin"), f.through_origin as u64);
+        self.n(
+            &format!("{p}.known_variance"),
+            (f.weights == WeightMeaning::InverseVariance) as u64,
+        );
+        self.n(&format!("{p}.approximate"), f.approximate as u64);
+        self.n(&format!("{p}.count"), f.count);
+        let fields: [(&str, f64); 34] = [
+            ("weight_sum", f.weight_sum),
+            ("effective_count", f.effective_count),
+            ("slope", f.slope),
+            ("intercept", f.intercept),
+            ("mean_x", f.mean_x),
+            ("mean_y", f.mean_y),
+            ("sxx", f.sxx),
+            ("sxy", f.sxy),
+            ("x_sq_sum", f.sum_x2),
+            ("x_sd", f.sd_x),
+            ("y_sd", f.sd_y),
+            ("xy_cov", f.covariance_xy),
+            ("correlation", f.r),
+            ("r_squared", f.r_squared),
+            ("r_squared_adj", f.adj_r_squared),
+            ("resid_ss", f.sse),
+            ("model_ss", f.ssr),
+            ("total_ss", f.sst),
+            ("model_df", f.df_model),
+            ("resid_df", f.df_resid),
+            ("resid_var", f.residual_variance),
+            ("resid_sd", f.residual_sd),
+            ("rms_resid", f.rmse),
+            ("var_scale", f.scale),
+            ("slope_se", f.se_slope),
+            ("intercept_se", f.se_intercept),
+            ("slope_intercept_cov", f.cov_intercept_slope),
+            ("slope_t", f.t_slope),
+            ("intercept_t", f.t_intercept),
+            ("slope_p", f.p_slope()),
+            ("intercept_p", f.p_intercept()),
+            ("f_stat", f.f_stat),
+            ("chi_square_p", f.p_chi_square()),
+            ("critical_95", f.t_critical(0.95).unwrap()),
+        ];
+        for (k, v) in fields {
+            self.f(&format!("{p}.{k}"), v);
+        }
+    }
+    fn interval(&mut self, p: &str, i: Interval) {
+        self.f(&format!("{p}.estimate"), i.center);
+        self.f(&format!("{p}.std_error"), i.se);
+        self.f(&format!("{p}.lower"), i.lower);
+        self.f(&format!("{p}.upper"), i.upper);
+    }
+    fn anova(&mut self, p: &str, a: Anova) {
+        for (k, v) in [
+            ("model_ss", a.ss_model),
+            ("model_df", a.df_model),
+            ("model_ms", a.ms_model),
+            ("resid_ss", a.ss_resid),
+            ("resid_df", a.df_resid),
+            ("resid_ms", a.ms_resid),
+            ("f_stat", a.f_stat),
+            ("f_p", a.p_value),
+        ] {
+            self.f(&format!("{p}.{k}"), v);
+        }
+    }
+}
+
+/// Invented readings: a drifting offset line with pseudo-random noise and
+/// weights, from a fixed 64-bit LCG (Knuth's MMIX constants).
+fn data(n: usize) -> Vec<[f64; 3]> {
+    let mut s: u64 = 0x2545_f491_4f6c_dd1d;
+    let mut u = || {
+        s = s
+            .wrapping_mul(6_364_136_223_846_793_005)
+            .wrapping_add(1_442_695_040_888_963_407);
+        (s >> 11) as f64 / (1u64 << 53) as f64
+    };
+    (0..n)
+        .map(|i| {
+            let x = 1000.0 + 0.25 * i as f64 + 0.1 * u();
+            let y = 3.7 - 0.42 * x + (u() - 0.5);
+            let w = 0.5 + 1.5 * u();
+            [x, y, w]
+        })
+        .collect()
+}
+
+fn scenario<T: Tier>(o: &mut Out, tag: &str, d: &[[f64; 3]]) {
+    let xs: Vec<f64> = d.iter().map(|p| p[0]).collect();
+    let ys: Vec<f64> = d.iter().map(|p| p[1]).collect();
+    let ws: Vec<f64> = d.iter().map(|p| p[2]).collect();
+    let origin = FitOptions::through_origin();
+    let known = FitOptions::default().with_weights(WeightMeaning::InverseVariance);
+
+    let mut push = PairMoments::<T>::new();
+    for p in d {
+        push.push(p[0], p[1]).unwrap();
+    }
+    let f = push.fit().unwrap();
+    o.fit(&format!("{tag}.push.fit"), &f);
+    o.fit(
+        &format!("{tag}.push.origin"),
+        &push.fit_with(&origin).unwrap(),
+    );
+    let (b, a) = push.slope_intercept().unwrap();
+    o.f(&format!("{tag}.push.si.slope"), b);
+    o.f(&format!("{tag}.push.si.intercept"), a);
+    let m = push.summary().unwrap();
+    o.n(&format!("{tag}.push.m.count"), m.count);
+    for (k, v) in [
+        ("weight_sum", m.weight_sum),
+        ("weight_sq_sum", m.weight_sq_sum),
+        ("mean_x", m.mean_x),
+        ("mean_y", m.mean_y),
+        ("sxx", m.sxx),
+        ("sxy", m.sxy),
+        ("syy", m.syy),
+    ] {
+        o.f(&format!("{tag}.push.m.{k}"), v);
+    }
+    let x0 = f.mean_x + 37.5;
+    o.f(&format!("{tag}.push.value"), f.fitted(x0));
+    o.interval(&format!("{tag}.push.band"), f.mean_band(x0, 0.95).unwrap());
+    o.interval(
+        &format!("{tag}.push.pred1"),
+        f.prediction(x0, 1, 0.95).unwrap(),
+    );
+    o.interval(
+        &format!("{tag}.push.pred3"),
+        f.prediction(x0, 3, 0.99).unwrap(),
+    );
+    o.interval(
+        &format!("{tag}.push.slope_ci"),
+        f.slope_interval(0.95).unwrap(),
+    );
+    o.interval(
+        &format!("{tag}.push.intercept_ci"),
+        f.intercept_interval(0.9).unwrap(),
+    );
+    o.anova(&format!("{tag}.push.anova"), f.anova());
+
+    let mut ext = PairMoments::<T>::new();
+    ext.extend(&xs, &ys).unwrap();
+    o.fit(&format!("{tag}.extend.fit"), &ext.fit().unwrap());
+
+    let cut = d.len() / 3;
+    let mut left = PairMoments::<T>::new();
+    left.extend(&xs[..cut], &ys[..cut]).unwrap();
+    let mut right = PairMoments::<T>::new();
+    right.extend(&xs[cut..], &ys[cut..]).unwrap();
+    left.merge(&right).unwrap();
+    o.fit(&format!("{tag}.merge.fit"), &left.fit().unwrap());
+
+    let mut wp = PairMoments::<T>::new();
+    for p in d {
+        wp.push_weighted(p[0], p[1], p[2]).unwrap();
+    }
+    o.fit(&format!("{tag}.wpush.fit"), &wp.fit().unwrap());
+    o.fit(&format!("{tag}.wpush.known"), &wp.fit_with(&known).unwrap());
+
+    let mut we = PairMoments::<T>::new();
+    we.extend_weighted(&xs, &ys, &ws).unwrap();
+    o.fit(&format!("{tag}.wextend.fit"), &we.fit().unwrap());
+
+    let half = d.len() / 2;
+    let mut fg = PairMoments::<T>::new();
+    fg.extend(&xs[..half], &ys[..half]).unwrap();
+    fg.forget(0.9).unwrap();
+    fg.extend(&xs[half..], &ys[half..]).unwrap();
+    o.fit(&format!("{tag}.forget.fit"), &fg.fit().unwrap());
+}
+
+fn main() {
+    let d = data(1000);
+    let mut o = Out(Vec::new());
+    scenario::<Lean>(&mut o, "lean", &d);
+    scenario::<Full>(&mut o, "full", &d);
+    let mut full = pf_core::FullMoments::new();
+    for p in &d {
+        full.push(p[0], p[1]).unwrap();
+    }
+    let (lo, hi) = full.x_range().unwrap();
+    o.f("full.x_range.min", lo);
+    o.f("full.x_range.max", hi);
+    let (lo, hi) = full.y_range().unwrap();
+    o.f("full.y_range.min", lo);
+    o.f("full.y_range.max", hi);
+
+    println!("data {}", d.len());
+    for p in &d {
+        println!("{} {} {}", bits(p[0]), bits(p[1]), bits(p[2]));
+    }
+    for l in &o.0 {
+        println!("{l}");
+    }
+}
