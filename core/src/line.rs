@@ -142,9 +142,12 @@ pub struct LineFit {
     pub sd_y: f64,
     /// Sample covariance of x and y (same divisor).
     pub covariance_xy: f64,
-    /// Pearson correlation of x and y (sign of the slope).
+    /// Pearson correlation of x and y (always centred, also for a line
+    /// through the origin; 0 when y has no spread).
     pub r: f64,
-    /// R²: centred, or uncentred for a line through the origin.
+    /// R²: centred, or uncentred for a line through the origin. When there is
+    /// nothing to explain (total sum of squares exactly 0) it is reported as
+    /// 1: the line reproduces every reading.
     pub r_squared: f64,
     /// R² adjusted for degrees of freedom.
     pub adj_r_squared: f64,
@@ -336,11 +339,12 @@ impl<T: Tier> PairMoments<T> {
         } else {
             (0.0, 0.0, 0.0)
         };
-        let r = if origin {
-            // Uncentred correlation, consistent with the uncentred R².
-            libm::sqrt(r_squared).copysign(slope)
+        // Pearson's r describes the data, so it is centred for either model.
+        let ssr1 = b1 * b1 * sxx;
+        let r = if ssr1 + sse1 > 0.0 {
+            libm::sqrt(ssr1 / (ssr1 + sse1)).copysign(b1)
         } else {
-            libm::sqrt(r_squared).copysign(b1)
+            0.0
         };
         let dof_total = if origin { n_used } else { n_used - 1.0 };
         let adj_r_squared = 1.0 - (1.0 - r_squared) * dof_total / df_resid;
