@@ -1,2 +1,0 @@
-//! (being written)
-#![allow(missing_docs)]
