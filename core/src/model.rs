@@ -90,7 +90,7 @@ const COL0_VARIES: f64 = 2.0;
 
 /// Rows handled together by the block path: four independent factors whose
 /// arithmetic the compiler can interleave and vectorise, merged at the end.
-const LANES: usize = 4;
+const LANES: usize = 8;
 
 /// Blocks shorter than this go row by row; the four-way split only pays
 /// once the final three merges are amortised.
@@ -229,6 +229,32 @@ mod kern {
         ((ah * bh - p) + ah * bl + al * bh) + al * bl
     }
 
+    /// `(p, e)` with `p = fl(a·b)` and `p + e = a·b` exactly, `a` given
+    /// pre-split. With a hardware FMA enabled at compile time (and `std`,
+    /// for `f64::mul_add`) this is two instructions and the split is dead
+    /// code; otherwise Dekker's product.
+    #[inline(always)]
+    pub fn two_prod_split(a: f64, ah: f64, al: f64, b: f64) -> (f64, f64) {
+        let p = a * b;
+        #[cfg(all(feature = "std", target_feature = "fma"))]
+        {
+            let _ = (ah, al);
+            (p, a.mul_add(b, -p))
+        }
+        #[cfg(not(all(feature = "std", target_feature = "fma")))]
+        {
+            let (bh, bl) = split(b);
+            (p, prod_err(p, ah, al, bh, bl))
+        }
+    }
+
+    /// Exact product `(p, e)` of two doubles.
+    #[inline(always)]
+    pub fn two_prod(a: f64, b: f64) -> (f64, f64) {
+        let (ah, al) = split(a);
+        two_prod_split(a, ah, al, b)
+    }
+
     /// `(s, e)` with `s + e = a + b` exactly, `|e| ≤ ulp(s)/2` (Dekker's
     /// Fast2Sum; needs `|a| ≥ |b|` or `a = 0`).
     #[inline(always)]
@@ -240,11 +266,8 @@ mod kern {
     /// Double-double product.
     #[inline(always)]
     pub fn mul(ah: f64, al: f64, bh: f64, bl: f64) -> (f64, f64) {
-        let p = ah * bh;
-        let (ahh, ahl) = split(ah);
-        let (bhh, bhl) = split(bh);
-        let e = prod_err(p, ahh, ahl, bhh, bhl) + (ah * bl + al * bh);
-        fast_two_sum(p, e)
+        let (p, e) = two_prod(ah, bh);
+        fast_two_sum(p, e + (ah * bl + al * bh))
     }
 
     /// Double-double sum (the cheap form: the low parts are added in
@@ -270,9 +293,8 @@ mod kern {
         ch: f64,
         cl: f64,
     ) -> (f64, f64) {
-        let p = bh * ch;
-        let (chh, chl) = split(ch);
-        let e = prod_err(p, bhh, bhl, chh, chl) + (bh * cl + bl * ch);
+        let (p, e) = two_prod_split(bh, bhh, bhl, ch);
+        let e = e + (bh * cl + bl * ch);
         let s = ah + p;
         let bb = s - ah;
         let err = (ah - (s - bb)) + (p - bb);
@@ -283,10 +305,7 @@ mod kern {
     #[inline(always)]
     pub fn recip(bh: f64, bl: f64) -> (f64, f64) {
         let q1 = 1.0 / bh;
-        let p = bh * q1;
-        let (bhh, bhl) = split(bh);
-        let (qh, ql) = split(q1);
-        let e = prod_err(p, bhh, bhl, qh, ql);
+        let (p, e) = two_prod(bh, q1);
         // 1 − p is exact (Sterbenz): p lies within an ulp of 1.
         let r = ((1.0 - p) - e) - bl * q1;
         fast_two_sum(q1, r * q1)
@@ -469,7 +488,8 @@ impl<const N: usize> Work<N> {
                 let (th, tl) = kern::mul(wxh, wxl, xih, xil);
                 let (nh, nl) = kern::add(di_h, di_l, th, tl);
                 let zero = nh == 0.0;
-                let (ih, il) = kern::recip(if zero { 1.0 } else { nh }, if zero { 0.0 } else { nl });
+                let (ih, il) =
+                    kern::recip(if zero { 1.0 } else { nh }, if zero { 0.0 } else { nl });
                 let (sh, sl) = kern::mul(wxh, wxl, ih, il);
                 let (cwh, cwl) = kern::mul(wh[l], wl[l], di_h, di_l);
                 let (cwh, cwl) = kern::mul(cwh, cwl, ih, il);
@@ -491,36 +511,32 @@ impl<const N: usize> Work<N> {
                 sb[2][l] = a;
                 sb[3][l] = b;
             }
-            for k in i + 1..p {
-                let r = row + (k - i - 1);
+            // Slices instead of indices: no bounds checks in the hot loop.
+            let len = p - i - 1;
+            let rh = &mut self.rh[row..row + len];
+            let rl = &mut self.rl[row..row + len];
+            let (_, xh) = o.xh[..p].split_at_mut(i + 1);
+            let (_, xl) = o.xl[..p].split_at_mut(i + 1);
+            for (((rh, rl), xh), xl) in rh
+                .iter_mut()
+                .zip(rl.iter_mut())
+                .zip(xh.iter_mut())
+                .zip(xl.iter_mut())
+            {
                 for l in 0..N {
                     // x_k ← x_k − x_i·R̄_ik, then R̄_ik ← R̄_ik + s̄·x_k (new
                     // x_k): equal to c̄·R̄_ik + s̄·x_k(old) since c̄ + s̄·x_i = 1,
                     // and one product cheaper.
                     let (xkh, xkl) = kern::fma(
-                        o.xh[k][l],
-                        o.xl[k][l],
-                        nx[0][l],
-                        nx[1][l],
-                        nx[2][l],
-                        nx[3][l],
-                        self.rh[r][l],
-                        self.rl[r][l],
+                        xh[l], xl[l], nx[0][l], nx[1][l], nx[2][l], nx[3][l], rh[l], rl[l],
                     );
-                    o.xh[k][l] = xkh;
-                    o.xl[k][l] = xkl;
-                    let (rh, rl) = kern::fma(
-                        self.rh[r][l],
-                        self.rl[r][l],
-                        sb[0][l],
-                        sb[1][l],
-                        sb[2][l],
-                        sb[3][l],
-                        xkh,
-                        xkl,
+                    xh[l] = xkh;
+                    xl[l] = xkl;
+                    let (nrh, nrl) = kern::fma(
+                        rh[l], rl[l], sb[0][l], sb[1][l], sb[2][l], sb[3][l], xkh, xkl,
                     );
-                    self.rh[r][l] = rh;
-                    self.rl[r][l] = rl;
+                    rh[l] = nrh;
+                    rl[l] = nrl;
                 }
             }
             for l in 0..N {
@@ -639,7 +655,10 @@ fn header_p(s: &[f64]) -> Result<usize, ModelError> {
 fn check_row(row: &[f64], y: f64, w: f64, idx: usize) -> Result<(), ModelError> {
     for (j, v) in row.iter().enumerate() {
         if !v.is_finite() {
-            return Err(ModelError::NonFinite { row: idx, column: j });
+            return Err(ModelError::NonFinite {
+                row: idx,
+                column: j,
+            });
         }
     }
     if !y.is_finite() {
@@ -1324,7 +1343,10 @@ pub struct Interval {
 }
 
 fn dd_at(s: &[f64], hi: usize, lo: usize) -> Dd {
-    Dd { hi: s[hi], lo: s[lo] }
+    Dd {
+        hi: s[hi],
+        lo: s[lo],
+    }
 }
 
 fn fit_state(s: &[f64], p: usize, opts: &ModelFitOptions) -> Result<ModelFit, ModelError> {
@@ -1336,10 +1358,16 @@ fn fit_state(s: &[f64], p: usize, opts: &ModelFitOptions) -> Result<ModelFit, Mo
         });
     }
     let zero = Dd::from_f64(0.0);
-    let d: Vec<Dd> = (0..p).map(|i| dd_at(s, off_dh(p) + i, off_dl(p) + i)).collect();
-    let theta: Vec<Dd> = (0..p).map(|i| dd_at(s, off_th(p) + i, off_tl(p) + i)).collect();
+    let d: Vec<Dd> = (0..p)
+        .map(|i| dd_at(s, off_dh(p) + i, off_dl(p) + i))
+        .collect();
+    let theta: Vec<Dd> = (0..p)
+        .map(|i| dd_at(s, off_th(p) + i, off_tl(p) + i))
+        .collect();
     let m = rbar_len(p);
-    let rbar: Vec<Dd> = (0..m).map(|r| dd_at(s, off_rh(p) + r, off_rl(p) + r)).collect();
+    let rbar: Vec<Dd> = (0..m)
+        .map(|r| dd_at(s, off_rh(p) + r, off_rl(p) + r))
+        .collect();
     let rb = |i: usize, k: usize| rbar[rbar_row(p, i) + k - i - 1];
 
     // Column norms ‖x_j‖²_W = Σ_{i<j} d_i R̄_ij² + d_j, all in double-double,
@@ -1354,7 +1382,7 @@ fn fit_state(s: &[f64], p: usize, opts: &ModelFitOptions) -> Result<ModelFit, Mo
         colss[j] = acc;
         let dj = d[j].to_f64();
         let ratio = if acc.hi > 0.0 { dj / acc.hi } else { 0.0 };
-        if !(dj > 0.0) || ratio < RANK_TOL * RANK_TOL {
+        if dj <= 0.0 || dj.is_nan() || ratio < RANK_TOL * RANK_TOL {
             return Err(ModelError::RankDeficient { column: j });
         }
     }
@@ -1426,7 +1454,9 @@ fn fit_state(s: &[f64], p: usize, opts: &ModelFitOptions) -> Result<ModelFit, Mo
     for a in 0..p * p {
         covariance[a] = ginv[a].mul(s2).to_f64();
     }
-    let std_errors: Vec<f64> = (0..p).map(|j| ginv[j * p + j].mul(s2).sqrt().to_f64()).collect();
+    let std_errors: Vec<f64> = (0..p)
+        .map(|j| ginv[j * p + j].mul(s2).sqrt().to_f64())
+        .collect();
 
     let (r_squared, adj_r_squared) = if ss_total.hi > 0.0 {
         let r2 = ss_model.div(ss_total).to_f64();
@@ -1664,7 +1694,9 @@ impl ModelFit {
         if m == 0 {
             return Err(ModelError::InvalidReplicates);
         }
-        let h = self.leverage_dd(row).add(Dd::from_f64(1.0).div(Dd::from_f64(m as f64)));
+        let h = self
+            .leverage_dd(row)
+            .add(Dd::from_f64(1.0).div(Dd::from_f64(m as f64)));
         let se = h.mul(self.s2).sqrt().to_f64();
         Ok(self.interval(row, se, level))
     }

@@ -1,6 +1,7 @@
 //! Public behaviour of the model accumulator: rank errors, merge and
 //! forgetting consistency, bad input leaving the state unchanged, and the
 //! inference helpers.
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly
 
 use plumbfit::model::{
     poly_fit, storage_len, InterceptMode, ModelCore, ModelError, ModelFitOptions, ModelMoments,
@@ -98,13 +99,23 @@ fn block_row_and_merge_paths_agree() {
     other.extend_rows(&rows[3 * 123..], &ys[123..]).unwrap();
     merged.merge(&other).unwrap();
     let opts = ModelFitOptions::default();
-    let (a, b, c) = (by_row.fit(&opts).unwrap(), by_block.fit(&opts).unwrap(), merged.fit(&opts).unwrap());
+    let (a, b, c) = (
+        by_row.fit(&opts).unwrap(),
+        by_block.fit(&opts).unwrap(),
+        merged.fit(&opts).unwrap(),
+    );
     assert_eq!(a.rows, 500);
     assert_eq!(b.rows, 500);
     assert_eq!(c.rows, 500);
     for j in 0..3 {
-        assert!(close(a.coefficients[j], b.coefficients[j], REL_DD), "coef {j}");
-        assert!(close(a.coefficients[j], c.coefficients[j], REL_DD), "coef {j}");
+        assert!(
+            close(a.coefficients[j], b.coefficients[j], REL_DD),
+            "coef {j}"
+        );
+        assert!(
+            close(a.coefficients[j], c.coefficients[j], REL_DD),
+            "coef {j}"
+        );
         assert!(close(a.std_errors[j], c.std_errors[j], REL_DD), "se {j}");
     }
     assert!(close(a.sse, b.sse, REL_DD) && close(a.sse, c.sse, REL_DD));
@@ -138,11 +149,20 @@ fn storage_problems_are_rejected() {
     let mut small = vec![0.0; storage_len(3) - 1];
     assert_eq!(
         ModelCore::new_in(&mut small, 3).err(),
-        Some(ModelError::StorageTooSmall { needed: storage_len(3), have: storage_len(3) - 1 })
+        Some(ModelError::StorageTooSmall {
+            needed: storage_len(3),
+            have: storage_len(3) - 1
+        })
     );
     let mut junk = vec![0.0; 40];
-    assert_eq!(ModelCore::attach(&mut junk).err(), Some(ModelError::InvalidStorage));
-    assert_eq!(ModelMoments::new(0).err(), Some(ModelError::InvalidParamCount { p: 0 }));
+    assert_eq!(
+        ModelCore::attach(&mut junk).err(),
+        Some(ModelError::InvalidStorage)
+    );
+    assert_eq!(
+        ModelMoments::new(0).err(),
+        Some(ModelError::InvalidParamCount { p: 0 })
+    );
     assert_eq!(
         ModelMoments::new(MAX_PARAMS + 1).err(),
         Some(ModelError::InvalidParamCount { p: MAX_PARAMS + 1 })
@@ -158,37 +178,96 @@ fn bad_input_is_rejected_and_state_is_bit_for_bit_unchanged() {
     let before = bits(acc.storage());
     let snapshot = acc.clone();
 
-    assert_eq!(acc.push_row(&[1.0, f64::NAN, 0.0], 1.0), Err(ModelError::NonFinite { row: 0, column: 1 }));
-    assert_eq!(acc.push_row(&[1.0, 2.0, 0.0], f64::INFINITY), Err(ModelError::NonFinite { row: 0, column: 3 }));
-    assert_eq!(acc.push_row_weighted(&[1.0, 2.0, 0.0], 1.0, 0.0), Err(ModelError::InvalidWeight { row: 0 }));
-    assert_eq!(acc.push_row_weighted(&[1.0, 2.0, 0.0], 1.0, -1.0), Err(ModelError::InvalidWeight { row: 0 }));
-    assert_eq!(acc.push_row_weighted(&[1.0, 2.0, 0.0], 1.0, f64::NAN), Err(ModelError::InvalidWeight { row: 0 }));
-    assert_eq!(acc.push_row(&[1.0, 2.0], 1.0), Err(ModelError::DimensionMismatch { expected: 3, found: 2 }));
+    assert_eq!(
+        acc.push_row(&[1.0, f64::NAN, 0.0], 1.0),
+        Err(ModelError::NonFinite { row: 0, column: 1 })
+    );
+    assert_eq!(
+        acc.push_row(&[1.0, 2.0, 0.0], f64::INFINITY),
+        Err(ModelError::NonFinite { row: 0, column: 3 })
+    );
+    assert_eq!(
+        acc.push_row_weighted(&[1.0, 2.0, 0.0], 1.0, 0.0),
+        Err(ModelError::InvalidWeight { row: 0 })
+    );
+    assert_eq!(
+        acc.push_row_weighted(&[1.0, 2.0, 0.0], 1.0, -1.0),
+        Err(ModelError::InvalidWeight { row: 0 })
+    );
+    assert_eq!(
+        acc.push_row_weighted(&[1.0, 2.0, 0.0], 1.0, f64::NAN),
+        Err(ModelError::InvalidWeight { row: 0 })
+    );
+    assert_eq!(
+        acc.push_row(&[1.0, 2.0], 1.0),
+        Err(ModelError::DimensionMismatch {
+            expected: 3,
+            found: 2
+        })
+    );
 
     // A long block (block path) whose row 150 is bad: nothing is added.
     let (mut rows2, ys2) = design(200);
     rows2[150 * 3 + 2] = f64::NEG_INFINITY;
-    assert_eq!(acc.extend_rows(&rows2, &ys2), Err(ModelError::NonFinite { row: 150, column: 2 }));
+    assert_eq!(
+        acc.extend_rows(&rows2, &ys2),
+        Err(ModelError::NonFinite {
+            row: 150,
+            column: 2
+        })
+    );
     let (rows3, mut ys3) = design(10);
     ys3[7] = f64::NAN;
-    assert_eq!(acc.extend_rows(&rows3, &ys3), Err(ModelError::NonFinite { row: 7, column: 3 }));
+    assert_eq!(
+        acc.extend_rows(&rows3, &ys3),
+        Err(ModelError::NonFinite { row: 7, column: 3 })
+    );
     let mut ws = vec![1.0; 10];
     ws[4] = 0.0;
     let (rows4, ys4) = design(10);
-    assert_eq!(acc.extend_rows_weighted(&rows4, &ys4, &ws), Err(ModelError::InvalidWeight { row: 4 }));
+    assert_eq!(
+        acc.extend_rows_weighted(&rows4, &ys4, &ws),
+        Err(ModelError::InvalidWeight { row: 4 })
+    );
     assert_eq!(
         acc.extend_rows(&rows4[..29], &ys4),
-        Err(ModelError::DimensionMismatch { expected: 30, found: 29 })
+        Err(ModelError::DimensionMismatch {
+            expected: 30,
+            found: 29
+        })
     );
-    assert_eq!(acc.forget(0.0), Err(ModelError::InvalidForgetting { bits: 0.0f64.to_bits() }));
-    assert!(matches!(acc.forget(1.5), Err(ModelError::InvalidForgetting { .. })));
-    assert!(matches!(acc.forget(f64::NAN), Err(ModelError::InvalidForgetting { .. })));
+    assert_eq!(
+        acc.forget(0.0),
+        Err(ModelError::InvalidForgetting {
+            bits: 0.0f64.to_bits()
+        })
+    );
+    assert!(matches!(
+        acc.forget(1.5),
+        Err(ModelError::InvalidForgetting { .. })
+    ));
+    assert!(matches!(
+        acc.forget(f64::NAN),
+        Err(ModelError::InvalidForgetting { .. })
+    ));
     let other = ModelMoments::new(2).unwrap();
-    assert_eq!(acc.merge(&other), Err(ModelError::DimensionMismatch { expected: 3, found: 2 }));
+    assert_eq!(
+        acc.merge(&other),
+        Err(ModelError::DimensionMismatch {
+            expected: 3,
+            found: 2
+        })
+    );
 
     // Values whose squares overflow: rejected as overflow, state kept.
-    assert_eq!(acc.push_row(&[1.0, 1e200, 0.0], 1.0), Err(ModelError::Overflow));
-    assert_eq!(acc.extend_rows(&[1.0, 1e200, 0.0], &[1.0]), Err(ModelError::Overflow));
+    assert_eq!(
+        acc.push_row(&[1.0, 1e200, 0.0], 1.0),
+        Err(ModelError::Overflow)
+    );
+    assert_eq!(
+        acc.extend_rows(&[1.0, 1e200, 0.0], &[1.0]),
+        Err(ModelError::Overflow)
+    );
 
     assert_eq!(bits(acc.storage()), before);
     assert_eq!(acc, snapshot);
@@ -213,7 +292,10 @@ fn forgetting_equals_explicit_geometric_weights() {
     assert!(a.forgetting_applied && !b.forgetting_applied);
     for j in 0..3 {
         // powi and the repeated products round differently (~n ulps).
-        assert!(close(a.coefficients[j], b.coefficients[j], 1e-12), "coef {j}");
+        assert!(
+            close(a.coefficients[j], b.coefficients[j], 1e-12),
+            "coef {j}"
+        );
         assert!(close(a.std_errors[j], b.std_errors[j], 1e-12), "se {j}");
     }
     assert!(close(a.sse, b.sse, 1e-12));
@@ -239,7 +321,10 @@ fn weighted_row_equals_repeated_row() {
     let opts = ModelFitOptions::default();
     let (a, b) = (rep.fit(&opts).unwrap(), wtd.fit(&opts).unwrap());
     for j in 0..3 {
-        assert!(close(a.coefficients[j], b.coefficients[j], REL_DD), "coef {j}");
+        assert!(
+            close(a.coefficients[j], b.coefficients[j], REL_DD),
+            "coef {j}"
+        );
     }
     assert!(close(a.sse, b.sse, REL_DD));
 }
@@ -291,10 +376,25 @@ fn straight_line_inference_matches_closed_form() {
     let pv = fit.p_values().unwrap();
     assert!(pv[1] > 0.0 && pv[1] < 1e-5, "slope p value {}", pv[1]);
     assert!(fit.f_p_value().unwrap() < 1e-5);
-    assert!(matches!(fit.coef_intervals(1.0), Err(ModelError::InvalidLevel { .. })));
-    assert!(matches!(fit.mean_response(&[1.0, 1.0], 0.0), Err(ModelError::InvalidLevel { .. })));
-    assert_eq!(fit.prediction(&[1.0, 1.0], 0, 0.9), Err(ModelError::InvalidReplicates));
-    assert_eq!(fit.leverage(&[1.0]), Err(ModelError::DimensionMismatch { expected: 2, found: 1 }));
+    assert!(matches!(
+        fit.coef_intervals(1.0),
+        Err(ModelError::InvalidLevel { .. })
+    ));
+    assert!(matches!(
+        fit.mean_response(&[1.0, 1.0], 0.0),
+        Err(ModelError::InvalidLevel { .. })
+    ));
+    assert_eq!(
+        fit.prediction(&[1.0, 1.0], 0, 0.9),
+        Err(ModelError::InvalidReplicates)
+    );
+    assert_eq!(
+        fit.leverage(&[1.0]),
+        Err(ModelError::DimensionMismatch {
+            expected: 2,
+            found: 1
+        })
+    );
     assert!(fit.condition_estimate >= 1.0 && fit.condition_estimate < 100.0);
 }
 
@@ -304,8 +404,12 @@ fn intercept_mode_controls_r_squared() {
     let mut acc = ModelMoments::new(3).unwrap();
     acc.extend_rows(&rows, &ys).unwrap();
     let det = acc.fit(&ModelFitOptions::default()).unwrap();
-    let with = acc.fit(&ModelFitOptions::with_intercept(InterceptMode::Column0)).unwrap();
-    let without = acc.fit(&ModelFitOptions::with_intercept(InterceptMode::None)).unwrap();
+    let with = acc
+        .fit(&ModelFitOptions::with_intercept(InterceptMode::Column0))
+        .unwrap();
+    let without = acc
+        .fit(&ModelFitOptions::with_intercept(InterceptMode::None))
+        .unwrap();
     assert!(det.has_intercept && with.has_intercept && !without.has_intercept);
     assert_eq!(det, with);
     assert_eq!((with.df_model, without.df_model), (2, 3));
@@ -340,7 +444,13 @@ fn error_codes_and_messages_are_stable() {
     let all = [
         (ModelError::NonFinite { row: 1, column: 2 }, 20),
         (ModelError::InvalidWeight { row: 1 }, 21),
-        (ModelError::DimensionMismatch { expected: 1, found: 2 }, 22),
+        (
+            ModelError::DimensionMismatch {
+                expected: 1,
+                found: 2,
+            },
+            22,
+        ),
         (ModelError::InvalidParamCount { p: 0 }, 23),
         (ModelError::InvalidForgetting { bits: 0 }, 24),
         (ModelError::InvalidLevel { bits: 0 }, 25),
@@ -354,7 +464,10 @@ fn error_codes_and_messages_are_stable() {
     for (e, code) in all {
         assert_eq!(e.code(), code, "{e:?}");
         let msg = e.to_string();
-        assert!(!msg.ends_with('.') && msg.chars().next().unwrap().is_lowercase(), "{msg}");
+        assert!(
+            !msg.ends_with('.') && msg.chars().next().unwrap().is_lowercase(),
+            "{msg}"
+        );
     }
     fn traits<T: Send + Sync + 'static + std::error::Error>() {}
     traits::<ModelError>();

@@ -1,5 +1,6 @@
 //! Property: splitting the rows at random points into several accumulators
 //! and merging them gives the same fit as pushing every row in order.
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly
 
 use plumbfit::model::{ModelFitOptions, ModelMoments};
 use proptest::prelude::*;
