@@ -1,1 +1,185 @@
-//! Benchmarks for plumbfit (criterion benches live in `benches/`).
+//! Workloads, the memory-read ceiling and a timing helper shared by the
+//! criterion benches (`cargo bench -p plumbfit-benches`) and the one-run
+//! speed report (`cargo run --release -p plumbfit-benches --bin speed-report`).
+//!
+//! Every throughput figure is reported next to the *read ceiling*: the rate
+//! at which this machine merely reads the same two `f64` arrays (a sum of
+//! both with several independent accumulators). A kernel at ratio 1.0 costs
+//! no more than touching its input once; at large `n` that is the memory
+//! bandwidth, at small `n` (data in L1) it is the vector add rate.
+
+use std::hint::black_box;
+use std::time::Instant;
+
+/// Fixed-seed generator (SplitMix64): reproducible data without a
+/// random-number dependency. Returns a value uniform in `[-0.5, 0.5)`.
+pub fn uniform(state: &mut u64) -> f64 {
+    *state = state.wrapping_add(0x9E37_79B9_7F4A_7C15);
+    let mut z = *state;
+    z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+    z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+    z ^= z >> 31;
+    (z >> 11) as f64 / (1u64 << 53) as f64 - 0.5
+}
+
+/// Invented offset calibration data: `x` near 1e9 (spread ±50), `y` on the
+/// line `y = 7 + 2.5·x` with noise of standard deviation about 0.03. The
+/// offset is the case where textbook sums lose every digit.
+pub fn offset_pairs(n: usize, seed: u64) -> (Vec<f64>, Vec<f64>) {
+    let mut s = seed;
+    let mut xs = Vec::with_capacity(n);
+    let mut ys = Vec::with_capacity(n);
+    for _ in 0..n {
+        let x = 1e9 + 100.0 * uniform(&mut s);
+        let e = 0.1 * uniform(&mut s);
+        xs.push(x);
+        ys.push(7.0 + 2.5 * x + e);
+    }
+    (xs, ys)
+}
+
+/// Invented design matrix for the model accumulator: `n` rows of `p`
+/// values, row-major, column 0 the intercept, the rest uniform in ±5; the
+/// response is `Σ (j+1)·x_j` plus uniform noise.
+pub fn model_rows(n: usize, p: usize, seed: u64) -> (Vec<f64>, Vec<f64>) {
+    let mut s = seed;
+    let mut rows = Vec::with_capacity(n * p);
+    let mut ys = Vec::with_capacity(n);
+    for _ in 0..n {
+        let mut y = 0.0;
+        for j in 0..p {
+            let v = if j == 0 { 1.0 } else { 10.0 * uniform(&mut s) };
+            y += (j as f64 + 1.0) * v;
+            rows.push(v);
+        }
+        ys.push(y + uniform(&mut s));
+    }
+    (rows, ys)
+}
+
+/// Reads both arrays once (their sum). The ceiling every kernel is compared
+/// with. AVX2 when the CPU has it, so the ceiling is never the slow side.
+pub fn read_ceiling(xs: &[f64], ys: &[f64]) -> f64 {
+    let n = xs.len().min(ys.len());
+    let (xs, ys) = (&xs[..n], &ys[..n]);
+    #[cfg(target_arch = "x86_64")]
+    {
+        if std::arch::is_x86_feature_detected!("avx2") {
+            // SAFETY: AVX2 is present (checked just above).
+            return unsafe { ceiling_avx2(xs, ys) };
+        }
+    }
+    ceiling_lanes(xs, ys)
+}
+
+/// Portable ceiling: eight independent accumulators per array.
+fn ceiling_lanes(xs: &[f64], ys: &[f64]) -> f64 {
+    let mut a = [0.0f64; 8];
+    let mut b = [0.0f64; 8];
+    let body = xs.len() / 8 * 8;
+    for (xq, yq) in xs[..body].chunks_exact(8).zip(ys[..body].chunks_exact(8)) {
+        for k in 0..8 {
+            a[k] += xq[k];
+            b[k] += yq[k];
+        }
+    }
+    let tail: f64 = xs[body..].iter().chain(&ys[body..]).sum();
+    a.iter().chain(&b).sum::<f64>() + tail
+}
+
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+unsafe fn ceiling_avx2(xs: &[f64], ys: &[f64]) -> f64 {
+    use std::arch::x86_64::*;
+    let n = xs.len();
+    let body = n / 16 * 16;
+    let (px, py) = (xs.as_ptr(), ys.as_ptr());
+    let mut acc = [_mm256_setzero_pd(); 8];
+    let mut i = 0;
+    while i < body {
+        for k in 0..4 {
+            // SAFETY: i + 4k + 3 < body <= n, so every load is in bounds.
+            unsafe {
+                acc[k] = _mm256_add_pd(acc[k], _mm256_loadu_pd(px.add(i + 4 * k)));
+                acc[4 + k] = _mm256_add_pd(acc[4 + k], _mm256_loadu_pd(py.add(i + 4 * k)));
+            }
+        }
+        i += 16;
+    }
+    let mut lanes = [0.0f64; 4];
+    let mut total = 0.0;
+    for a in acc {
+        // SAFETY: `lanes` holds four f64.
+        unsafe { _mm256_storeu_pd(lanes.as_mut_ptr(), a) };
+        total += lanes.iter().sum::<f64>();
+    }
+    total + xs[body..].iter().chain(&ys[body..]).sum::<f64>()
+}
+
+/// Best time of one call to `f`, over repeated calls lasting at least
+/// `budget_s` seconds in total (and at least `min_reps` calls). The best
+/// time is the least disturbed by other work on a shared machine. Calls
+/// faster than 200 µs are batched so the clock's overhead does not count.
+pub fn best_seconds(budget_s: f64, min_reps: usize, mut f: impl FnMut()) -> f64 {
+    // Warm-up call; also sizes the batch.
+    let t0 = Instant::now();
+    f();
+    let once = t0.elapsed().as_secs_f64().max(1e-9);
+    let batch = ((2e-4 / once).ceil() as usize).max(1);
+    let start = Instant::now();
+    let mut best = f64::INFINITY;
+    let mut reps = 0;
+    while reps < min_reps || start.elapsed().as_secs_f64() < budget_s {
+        let t = Instant::now();
+        for _ in 0..batch {
+            f();
+        }
+        best = best.min(t.elapsed().as_secs_f64() / batch as f64);
+        reps += 1;
+    }
+    best
+}
+
+/// Rate in items per second of `f` processing `items` items per call.
+pub fn rate(items: usize, budget_s: f64, min_reps: usize, f: impl FnMut()) -> f64 {
+    items as f64 / best_seconds(budget_s, min_reps, f)
+}
+
+/// Read-ceiling rate (pairs per second) for `xs`, `ys`.
+pub fn ceiling_rate(xs: &[f64], ys: &[f64], budget_s: f64) -> f64 {
+    rate(xs.len(), budget_s, 5, || {
+        black_box(read_ceiling(black_box(xs), black_box(ys)));
+    })
+}
+
+/// The 1-, 5- and 15-minute load averages (Linux), for the report header.
+pub fn load_average() -> Option<String> {
+    let s = std::fs::read_to_string("/proc/loadavg").ok()?;
+    Some(s.split_whitespace().take(3).collect::<Vec<_>>().join(" "))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn ceiling_paths_agree_with_a_plain_sum() {
+        // Small integers sum exactly in any order, so all paths must agree
+        // exactly (tolerance 0: exact arithmetic).
+        let xs: Vec<f64> = (0..1003).map(|i| (i % 17) as f64).collect();
+        let ys: Vec<f64> = (0..1003).map(|i| (i % 5) as f64).collect();
+        let plain: f64 = xs.iter().chain(&ys).sum();
+        assert_eq!(read_ceiling(&xs, &ys), plain);
+        assert_eq!(ceiling_lanes(&xs, &ys), plain);
+    }
+
+    #[test]
+    fn generator_is_uniform_in_half_open_unit() {
+        let mut s = 1;
+        let v: Vec<f64> = (0..10_000).map(|_| uniform(&mut s)).collect();
+        assert!(v.iter().all(|&u| (-0.5..0.5).contains(&u)));
+        // Mean of 10⁴ uniforms has sd 0.0029; 0.02 is about 7 sd.
+        let mean = v.iter().sum::<f64>() / v.len() as f64;
+        assert!(mean.abs() < 0.02, "mean {mean}");
+    }
+}

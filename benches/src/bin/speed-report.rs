@@ -1,0 +1,246 @@
+//! One-run speed report: every figure beside the read ceiling measured in
+//! the same run, so the ratios hold even on a busy machine.
+//!
+//! `cargo run --release -p plumbfit-benches --bin speed-report [-- --quick]`
+
+use plumbfit::model::ModelMoments;
+use plumbfit::{FullMoments, LeanMoments, PairMoments, Tier};
+use plumbfit_benches::{ceiling_rate, load_average, model_rows, offset_pairs, rate};
+use std::hint::black_box;
+
+struct Row {
+    what: String,
+    n: usize,
+    rate: f64,
+    unit: &'static str,
+    ratio: Option<f64>,
+}
+
+fn extend_once<T: Tier>(xs: &[f64], ys: &[f64]) -> bool {
+    let mut a = PairMoments::<T>::new();
+    let ok = a.extend(black_box(xs), black_box(ys)).is_ok();
+    black_box(&a);
+    ok
+}
+
+fn push_all<T: Tier>(xs: &[f64], ys: &[f64]) -> usize {
+    let mut a = PairMoments::<T>::new();
+    let mut refused = 0usize;
+    for (&x, &y) in black_box(xs).iter().zip(black_box(ys)) {
+        refused += a.push(x, y).is_err() as usize;
+    }
+    black_box(&a);
+    refused
+}
+
+fn main() {
+    let quick = std::env::args().any(|a| a == "--quick");
+    let budget = if quick { 0.05 } else { 0.6 };
+    let load0 = load_average().unwrap_or_else(|| "unknown".into());
+    let mut rows: Vec<Row> = Vec::new();
+    let mut failures = 0usize;
+    let sizes: &[usize] = if quick {
+        &[1_000, 100_000]
+    } else {
+        &[1_000, 10_000, 100_000, 1_000_000, 10_000_000]
+    };
+    let mut ceiling_at = Vec::new();
+    for &n in sizes {
+        let (xs, ys) = offset_pairs(n, 7);
+        let ceil = ceiling_rate(&xs, &ys, budget);
+        ceiling_at.push((n, ceil));
+        rows.push(Row {
+            what: "read ceiling (sum of both arrays)".into(),
+            n,
+            rate: ceil,
+            unit: "pairs/s",
+            ratio: Some(1.0),
+        });
+        let lean = rate(n, budget, 5, || {
+            failures += !extend_once::<plumbfit::Lean>(&xs, &ys) as usize;
+        });
+        rows.push(Row {
+            what: "lean extend".into(),
+            n,
+            rate: lean,
+            unit: "pairs/s",
+            ratio: Some(lean / ceil),
+        });
+        let full = rate(n, budget, 5, || {
+            failures += !extend_once::<plumbfit::Full>(&xs, &ys) as usize;
+        });
+        rows.push(Row {
+            what: "full extend".into(),
+            n,
+            rate: full,
+            unit: "pairs/s",
+            ratio: Some(full / ceil),
+        });
+        if n == 1_000_000 || (quick && n == 100_000) {
+            let ws: Vec<f64> = (0..n).map(|i| 1.0 + (i % 3) as f64).collect();
+            let lw = rate(n, budget, 5, || {
+                let mut a = LeanMoments::new();
+                failures += a.extend_weighted(&xs, &ys, &ws).is_err() as usize;
+                black_box(&a);
+            });
+            rows.push(Row {
+                what: "lean extend_weighted (scalar)".into(),
+                n,
+                rate: lw,
+                unit: "pairs/s",
+                ratio: Some(lw / ceil),
+            });
+            for (name, r) in [
+                (
+                    "lean push (per pair)",
+                    rate(n, budget, 5, || {
+                        failures += push_all::<plumbfit::Lean>(&xs, &ys)
+                    }),
+                ),
+                (
+                    "full push (per pair)",
+                    rate(n, budget, 5, || {
+                        failures += push_all::<plumbfit::Full>(&xs, &ys)
+                    }),
+                ),
+            ] {
+                rows.push(Row {
+                    what: name.into(),
+                    n,
+                    rate: r,
+                    unit: "pairs/s",
+                    ratio: Some(r / ceil),
+                });
+            }
+        }
+    }
+
+    // Merges of two framed accumulators with different frames (the general
+    // case: shift and slope change).
+    let (xs, ys) = offset_pairs(2_000, 11);
+    let mut la = LeanMoments::new();
+    let mut lb = LeanMoments::new();
+    let mut fa = FullMoments::new();
+    let mut fb = FullMoments::new();
+    failures += la.extend(&xs[..1000], &ys[..1000]).is_err() as usize;
+    failures += lb.extend(&xs[1000..], &ys[1000..]).is_err() as usize;
+    failures += fa.extend(&xs[..1000], &ys[..1000]).is_err() as usize;
+    failures += fb.extend(&xs[1000..], &ys[1000..]).is_err() as usize;
+    let reps = 1000;
+    let lm = rate(reps, budget, 5, || {
+        for _ in 0..reps {
+            let mut t = black_box(la);
+            failures += t.merge(black_box(&lb)).is_err() as usize;
+            black_box(&t);
+        }
+    });
+    let fm = rate(reps, budget, 5, || {
+        for _ in 0..reps {
+            let mut t = black_box(fa);
+            failures += t.merge(black_box(&fb)).is_err() as usize;
+            black_box(&t);
+        }
+    });
+    for (what, r) in [("lean merge", lm), ("full merge", fm)] {
+        rows.push(Row {
+            what: what.into(),
+            n: 1,
+            rate: r,
+            unit: "merges/s",
+            ratio: None,
+        });
+    }
+
+    // Model accumulator, default (full-accuracy) mode. Ratio: f64 values
+    // read per second (p + 1 per row) against the ceiling's (2 per pair)
+    // at 10⁶ pairs.
+    let ceil_1m = ceiling_at
+        .iter()
+        .find(|(n, _)| *n == 1_000_000)
+        .or(ceiling_at.last())
+        .map(|&(_, c)| c)
+        .unwrap_or(f64::NAN);
+    let model_n = if quick { 20_000 } else { 1_000_000 };
+    for p in [2usize, 4, 8, 12] {
+        let (rs, ys) = model_rows(model_n, p, 3 + p as u64);
+        let r = rate(model_n, budget, 3, || match ModelMoments::new(p) {
+            Ok(mut m) => {
+                failures += m.extend_rows(black_box(&rs), black_box(&ys)).is_err() as usize;
+                black_box(&m);
+            }
+            Err(_) => failures += 1,
+        });
+        rows.push(Row {
+            what: format!("model extend_rows, p = {p}"),
+            n: model_n,
+            rate: r,
+            unit: "rows/s",
+            ratio: Some(r * (p as f64 + 1.0) / (2.0 * ceil_1m)),
+        });
+    }
+
+    let load1 = load_average().unwrap_or_else(|| "unknown".into());
+    println!("plumbfit speed report (release, one run, best of repeats)");
+    println!(
+        "load average at start: {load0}; at end: {load1}; cores: {}",
+        std::thread::available_parallelism().map_or(0, |n| n.get())
+    );
+    println!();
+    println!(
+        "| {:<34} | {:>10} | {:>12} | {:<8} | {:>8} |",
+        "measure", "n", "rate (M/s)", "unit", "/ceiling"
+    );
+    println!(
+        "|{:-<36}|{:-<12}|{:-<14}|{:-<10}|{:-<10}|",
+        "", "", "", "", ""
+    );
+    for r in &rows {
+        let ratio = r.ratio.map_or("-".to_string(), |v| format!("{v:.3}"));
+        println!(
+            "| {:<34} | {:>10} | {:>12.1} | {:<8} | {:>8} |",
+            r.what,
+            r.n,
+            r.rate / 1e6,
+            r.unit,
+            ratio
+        );
+    }
+    println!();
+    let find = |what: &str, n: usize| {
+        rows.iter()
+            .find(|r| r.what == what && r.n == n)
+            .map(|r| (r.rate, r.ratio.unwrap_or(f64::NAN)))
+    };
+    let big = *sizes.last().unwrap_or(&0);
+    let pn = if quick { 100_000 } else { 1_000_000 };
+    let checks = [
+        (
+            "lean extend >= 0.8 x ceiling",
+            find("lean extend", big).map(|v| v.1),
+            0.8,
+        ),
+        (
+            "full extend >= 0.3 x ceiling",
+            find("full extend", big).map(|v| v.1),
+            0.3,
+        ),
+        (
+            "lean push >= 400 M pairs/s",
+            find("lean push (per pair)", pn).map(|v| v.0 / 1e6),
+            400.0,
+        ),
+    ];
+    for (what, got, want) in checks {
+        match got {
+            Some(g) => println!(
+                "target {what}: {g:.3} -> {}",
+                if g >= want { "met" } else { "MISSED" }
+            ),
+            None => println!("target {what}: not measured"),
+        }
+    }
+    if failures > 0 {
+        println!("warning: {failures} calls returned an error (figures invalid)");
+        std::process::exit(1);
+    }
+}
