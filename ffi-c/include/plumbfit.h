@@ -63,6 +63,28 @@
 #define PF_LINE_FULL_STORAGE_WORDS 96
 
 /*
+ Largest number of coefficients a model accumulator holds.
+ */
+#define PF_MODEL_MAX_PARAMS 16
+
+/*
+ Intercept handling for the `pf_model_*` fit functions: column 0 is an
+ intercept when every row had the same nonzero value in it.
+ */
+#define PF_INTERCEPT_DETECT 0
+
+/*
+ Column 0 is the intercept column (the caller guarantees it is constant).
+ */
+#define PF_INTERCEPT_COLUMN0 1
+
+/*
+ No intercept: R^2 is uncentred and every coefficient counts towards the
+ model degrees of freedom.
+ */
+#define PF_INTERCEPT_NONE 2
+
+/*
  Major version of the library (from Cargo.toml; checked at compile time).
  */
 #define PF_VERSION_MAJOR 0
@@ -98,6 +120,16 @@
  concurrently on one handle; all others need exclusive access.
  */
 typedef struct pf_line pf_line;
+
+/*
+ A model accumulator for `p` coefficients (opaque). Create it with
+ `pf_model_new` (library memory, release with `pf_model_free`) or
+ `pf_model_init_in` (your memory; size from `pf_model_layout`).
+
+ Thread-safety: functions taking `const pf_model *` only read and may run
+ concurrently on one handle; all others need exclusive access.
+ */
+typedef struct pf_model pf_model;
 
 /*
  Result of a fallible call: `PF_OK` (0) or one of the `PF_ERR_*` numbers.
@@ -387,6 +419,112 @@ typedef struct {
 } pf_moments;
 
 /*
+ Summary of a model fit (coefficients and their standard errors go to
+ caller arrays). Optional quantities come with a `has_` flag; when the
+ flag is false the value is 0 and means nothing. No field is NaN.
+ */
+typedef struct {
+    /*
+     Number of coefficients `p`.
+     */
+    uint32_t params;
+    /*
+     Column 0 was treated as an intercept.
+     */
+    bool has_intercept;
+    /*
+     The residual sum of squares is zero to working precision; standard
+     errors are then 0 and the F statistic +infinity.
+     */
+    bool exact_fit;
+    /*
+     Forgetting was applied; inference is approximate.
+     */
+    bool forgetting_applied;
+    /*
+     `r_squared` and `r_squared_adj` are defined (total sum of squares
+     not zero).
+     */
+    bool has_r_squared;
+    /*
+     `model_ms` is defined (model degrees of freedom not zero).
+     */
+    bool has_model_ms;
+    /*
+     `f_stat` is defined.
+     */
+    bool has_f_stat;
+    /*
+     `f_p` is defined.
+     */
+    bool has_f_p;
+    /*
+     Rows accumulated.
+     */
+    uint64_t rows;
+    /*
+     Sum of the row weights (decayed by forgetting).
+     */
+    double weight_sum;
+    /*
+     Effective number of rows `sum(w)^2 / sum(w^2)`.
+     */
+    double effective_rows;
+    /*
+     Residual sum of squares.
+     */
+    double resid_ss;
+    /*
+     Sum of squares explained by the model.
+     */
+    double model_ss;
+    /*
+     Total sum of squares (`model_ss + resid_ss`).
+     */
+    double total_ss;
+    /*
+     Residual standard deviation.
+     */
+    double resid_sd;
+    /*
+     Coefficient of determination (see `has_r_squared`).
+     */
+    double r_squared;
+    /*
+     R^2 adjusted for degrees of freedom (see `has_r_squared`).
+     */
+    double r_squared_adj;
+    /*
+     Model degrees of freedom.
+     */
+    uint64_t model_df;
+    /*
+     Residual degrees of freedom.
+     */
+    uint64_t resid_df;
+    /*
+     Model mean square (see `has_model_ms`).
+     */
+    double model_ms;
+    /*
+     Residual mean square.
+     */
+    double resid_ms;
+    /*
+     F statistic (see `has_f_stat`).
+     */
+    double f_stat;
+    /*
+     Upper-tail p value of the F statistic (see `has_f_p`).
+     */
+    double f_p;
+    /*
+     Estimated condition number of the column-scaled design.
+     */
+    double condition_estimate;
+} pf_model_info;
+
+/*
  Static or stack storage for a lean accumulator, for `pf_line_init_in`
  without a size query: `static pf_line_lean_storage st;` then
  `pf_line_init_in(&st, sizeof st, PF_TIER_LEAN, &line)`. The contents are
@@ -452,6 +590,52 @@ typedef struct {
 #define PF_ERR_INVALID_COUNT 7
 
 /*
+ Model: a regressor or response value is NaN or infinite.
+ */
+#define PF_ERR_MODEL_NON_FINITE 20
+
+/*
+ Model: a weight is zero, negative or not finite.
+ */
+#define PF_ERR_MODEL_INVALID_WEIGHT 21
+
+/*
+ Model: an array has the wrong length for p, or two accumulators have
+ different p.
+ */
+#define PF_ERR_MODEL_DIMENSION 22
+
+/*
+ Model: the number of coefficients is 0 or above `PF_MODEL_MAX_PARAMS`.
+ */
+#define PF_ERR_MODEL_PARAM_COUNT 23
+
+/*
+ Model: a forgetting factor outside (0, 1].
+ */
+#define PF_ERR_MODEL_FORGETTING 24
+
+/*
+ Model: a confidence level outside (0, 1).
+ */
+#define PF_ERR_MODEL_LEVEL 25
+
+/*
+ Model: a replicate count of zero.
+ */
+#define PF_ERR_MODEL_REPLICATES 26
+
+/*
+ Model: state storage too small (see `pf_model_layout`).
+ */
+#define PF_ERR_MODEL_STORAGE_TOO_SMALL 27
+
+/*
+ Model: the storage does not hold a valid model state.
+ */
+#define PF_ERR_MODEL_INVALID_STORAGE 28
+
+/*
  A required pointer argument is NULL.
  */
 #define PF_ERR_NULL_POINTER 60
@@ -492,6 +676,21 @@ typedef struct {
  `_free` was called on a handle that lives in caller storage.
  */
 #define PF_ERR_IN_PLACE_HANDLE 67
+
+/*
+ Model: a column is numerically a combination of earlier columns.
+ */
+#define PF_ERR_RANK_DEFICIENT 120
+
+/*
+ Model: too few rows for the result (a fit needs p + 1).
+ */
+#define PF_ERR_TOO_FEW_ROWS 121
+
+/*
+ Model: the state would overflow (values too large in magnitude).
+ */
+#define PF_ERR_MODEL_OVERFLOW 122
 
 /*
  The library could not allocate memory for a new handle (use caller
@@ -873,6 +1072,309 @@ pf_status pf_line_slope_intercept(const pf_line *line, double *slope_out, double
  `pf_fitted_line`.
  */
 pf_status pf_line_fit(const pf_line *line, uint32_t options, pf_fitted_line *out);
+
+/*
+ Size and alignment of caller storage for a model accumulator with
+ `params` coefficients (1 to `PF_MODEL_MAX_PARAMS`), stored in `*out`.
+
+ Errors: `PF_ERR_NULL_POINTER`, `PF_ERR_MODEL_PARAM_COUNT`. Thread-safe.
+
+ # Safety
+ `out` must be NULL or valid for writing one `pf_layout`.
+ */
+pf_status pf_model_layout(size_t params, pf_layout *out);
+
+/*
+ Builds an empty model accumulator for `params` coefficients in caller
+ storage `buf` of `len` bytes (no heap) and stores its handle in `*out`.
+
+ `buf` needs `pf_model_layout(params).size` bytes aligned to 8. The
+ handle points into `buf` and is valid while `buf` is; never pass it to
+ `pf_model_free`. Calling `pf_model_init_in` again on the same storage
+ starts afresh (and clears poisoning). Nothing is written on error.
+
+ Errors: `PF_ERR_NULL_POINTER` (`buf` or `out` NULL, even with `len` 0),
+ `PF_ERR_MODEL_PARAM_COUNT`, `PF_ERR_BUFFER_TOO_SMALL`,
+ `PF_ERR_MISALIGNED`. Needs exclusive access to `buf`.
+
+ # Safety
+ `buf` NULL or valid for writing `len` bytes; `out` NULL or valid for
+ writing one pointer.
+ */
+pf_status pf_model_init_in(void *buf, size_t len, size_t params, pf_model **out);
+
+/*
+ Allocates an empty model accumulator for `params` coefficients and
+ stores its handle in `*out`; release it with `pf_model_free`.
+
+ Errors: `PF_ERR_NULL_POINTER`, `PF_ERR_MODEL_PARAM_COUNT`,
+ `PF_ERR_OUT_OF_MEMORY`. Nothing is written on error.
+
+ # Safety
+ `out` must be NULL or valid for writing one pointer.
+ */
+pf_status pf_model_new(size_t params, pf_model **out);
+
+/*
+ Releases a handle from `pf_model_new`; `pf_model_free(NULL)` does
+ nothing and returns `PF_OK`. Poisoned handles can be freed.
+
+ Errors: `PF_ERR_IN_PLACE_HANDLE` (caller storage; nothing done),
+ `PF_ERR_BAD_HANDLE`. Needs exclusive access.
+
+ # Safety
+ `m` NULL or a handle from this library, not used concurrently and not
+ freed twice.
+ */
+pf_status pf_model_free(pf_model *m);
+
+/*
+ Empties the accumulator (same number of coefficients).
+
+ Errors: `PF_ERR_NULL_POINTER`, `PF_ERR_BAD_HANDLE`, `PF_ERR_POISONED`.
+ Needs exclusive access.
+
+ # Safety
+ `m` NULL or a live handle from this library.
+ */
+pf_status pf_model_reset(pf_model *m);
+
+/*
+ Stores the number of coefficients `p` in `*out`.
+
+ Errors: `PF_ERR_NULL_POINTER`, handle errors. Read-only.
+
+ # Safety
+ `m` NULL or a live handle; `out` NULL or valid for one `size_t`.
+ */
+pf_status pf_model_params(const pf_model *m, size_t *out);
+
+/*
+ Stores the number of rows added in `*out`.
+
+ Errors: `PF_ERR_NULL_POINTER`, handle errors. Read-only.
+
+ # Safety
+ `m` NULL or a live handle; `out` NULL or valid for one `uint64_t`.
+ */
+pf_status pf_model_count(const pf_model *m, uint64_t *out);
+
+/*
+ Adds one row of `row_len` (= p) regressor values with response `y`.
+ Allocation-free.
+
+ Errors: `PF_ERR_NULL_POINTER` (`row` NULL even with `row_len` 0),
+ `PF_ERR_MISALIGNED`, `PF_ERR_MODEL_DIMENSION` (`row_len` != p),
+ `PF_ERR_MODEL_NON_FINITE`, `PF_ERR_MODEL_OVERFLOW`, handle errors. On
+ error the state is unchanged. Needs exclusive access.
+
+ # Safety
+ `m` NULL or a live handle; `row` NULL or valid for `row_len` doubles.
+ */
+pf_status pf_model_push(pf_model *m, const double *row, size_t row_len, double y);
+
+/*
+ Adds one row with weight `w > 0` (an inverse-variance weight).
+
+ Errors: as `pf_model_push`, plus `PF_ERR_MODEL_INVALID_WEIGHT`.
+
+ # Safety
+ `m` NULL or a live handle; `row` NULL or valid for `row_len` doubles.
+ */
+pf_status pf_model_push_weighted(pf_model *m,
+                                 const double *row,
+                                 size_t row_len,
+                                 double y,
+                                 double w);
+
+/*
+ Adds the polynomial row `[1, x, x^2, ..., x^(p-1)]` with response `y`
+ and weight `w` (1 for unweighted); the powers are formed in extended
+ precision. Allocation-free.
+
+ Errors: `PF_ERR_NULL_POINTER`, `PF_ERR_MODEL_NON_FINITE`,
+ `PF_ERR_MODEL_INVALID_WEIGHT`, `PF_ERR_MODEL_OVERFLOW`, handle errors.
+
+ # Safety
+ `m` NULL or a live handle from this library.
+ */
+pf_status pf_model_push_powers(pf_model *m, double x, double y, double w);
+
+/*
+ Adds `n` rows: `rows` is row-major with `rows_len` = n * p values, `ys`
+ has `n` responses. The block is validated before anything is added.
+
+ Errors: `PF_ERR_NULL_POINTER` (any pointer, even with lengths 0),
+ `PF_ERR_MISALIGNED`, `PF_ERR_BAD_ARGUMENT` (length too large),
+ `PF_ERR_MODEL_DIMENSION` (`rows_len` != n * p), `PF_ERR_MODEL_NON_FINITE`,
+ `PF_ERR_MODEL_OVERFLOW`, handle errors. Needs exclusive access.
+
+ # Safety
+ `m` NULL or a live handle; `rows` NULL or valid for `rows_len` doubles;
+ `ys` NULL or valid for `n` doubles.
+ */
+pf_status pf_model_extend(pf_model *m,
+                          const double *rows,
+                          size_t rows_len,
+                          const double *ys,
+                          size_t n);
+
+/*
+ Adds `n` weighted rows; see `pf_model_extend`. `ws` has `n` weights.
+
+ Errors: as `pf_model_extend`, plus `PF_ERR_MODEL_INVALID_WEIGHT`.
+
+ # Safety
+ As `pf_model_extend`; `ws` NULL or valid for `n` doubles.
+ */
+pf_status pf_model_extend_weighted(pf_model *m,
+                                   const double *rows,
+                                   size_t rows_len,
+                                   const double *ys,
+                                   const double *ws,
+                                   size_t n);
+
+/*
+ Multiplies the weight of every row so far by `lambda` in (0, 1].
+
+ Errors: `PF_ERR_MODEL_FORGETTING`, handle errors. On error the state is
+ unchanged. Needs exclusive access.
+
+ # Safety
+ `m` NULL or a live handle from this library.
+ */
+pf_status pf_model_forget(pf_model *m, double lambda);
+
+/*
+ Merges `src` into `dst` (same number of coefficients). `src` is only
+ read and may be the same handle as `dst`.
+
+ Errors: `PF_ERR_NULL_POINTER`, handle errors (either handle),
+ `PF_ERR_MODEL_DIMENSION` (different p), `PF_ERR_MODEL_OVERFLOW`. On
+ error `dst` is unchanged. Needs exclusive access to `dst`.
+
+ # Safety
+ `dst`, `src` NULL or live handles from this library.
+ */
+pf_status pf_model_merge(pf_model *dst, const pf_model *src);
+
+/*
+ Fits the model. Stores the summary in `*info`, the p coefficients in
+ `coefficients` and their standard errors in `std_errors` (each array's
+ capacity, in values, follows it and must be at least p; query p with
+ `pf_model_params`). `intercept` is one of the `PF_INTERCEPT_*` values.
+
+ Uses the heap for temporary work (the accumulating calls do not).
+ Outputs are written only on success.
+
+ Errors: `PF_ERR_NULL_POINTER` (any pointer), `PF_ERR_BAD_ARGUMENT`
+ (unknown intercept value), `PF_ERR_BUFFER_TOO_SMALL`,
+ `PF_ERR_TOO_FEW_ROWS` (fewer than p + 1 rows), `PF_ERR_RANK_DEFICIENT`,
+ handle errors. Read-only.
+
+ # Safety
+ `m` NULL or a live handle; `info` NULL or valid for one
+ `pf_model_info`; each array NULL or valid for its capacity.
+ */
+pf_status pf_model_fit(const pf_model *m,
+                       uint32_t intercept,
+                       pf_model_info *info,
+                       double *coefficients,
+                       size_t coefficients_cap,
+                       double *std_errors,
+                       size_t std_errors_cap);
+
+/*
+ Stores the p x p covariance matrix of the coefficients (row-major) in
+ `out`, of capacity `cap` values (at least p * p).
+
+ Errors: as `pf_model_fit`. Read-only.
+
+ # Safety
+ `m` NULL or a live handle; `out` NULL or valid for `cap` doubles.
+ */
+pf_status pf_model_covariance(const pf_model *m, uint32_t intercept, double *out, size_t cap);
+
+/*
+ Confidence intervals at `level` of the p coefficients, stored in `out`
+ of capacity `cap` intervals (at least p).
+
+ Errors: as `pf_model_fit`, plus `PF_ERR_MODEL_LEVEL`. Read-only.
+
+ # Safety
+ `m` NULL or a live handle; `out` NULL or valid for `cap` intervals.
+ */
+pf_status pf_model_coef_intervals(const pf_model *m,
+                                  uint32_t intercept,
+                                  double level,
+                                  pf_interval *out,
+                                  size_t cap);
+
+/*
+ The fitted value at a new row of `row_len` (= p) regressor values,
+ stored in `*out`.
+
+ Errors: as `pf_model_fit`, plus `PF_ERR_MODEL_DIMENSION`,
+ `PF_ERR_MODEL_NON_FINITE`, `PF_ERR_MISALIGNED`. Read-only.
+
+ # Safety
+ `m` NULL or a live handle; `row` NULL or valid for `row_len` doubles;
+ `out` NULL or valid for one double.
+ */
+pf_status pf_model_predict(const pf_model *m,
+                           uint32_t intercept,
+                           const double *row,
+                           size_t row_len,
+                           double *out);
+
+/*
+ Confidence interval at `level` for the mean response at a new row,
+ stored in `*out`.
+
+ Errors: as `pf_model_predict`, plus `PF_ERR_MODEL_LEVEL`. Read-only.
+
+ # Safety
+ As `pf_model_predict`; `out` NULL or valid for one `pf_interval`.
+ */
+pf_status pf_model_mean_response(const pf_model *m,
+                                 uint32_t intercept,
+                                 const double *row,
+                                 size_t row_len,
+                                 double level,
+                                 pf_interval *out);
+
+/*
+ Prediction interval at `level` for the mean of `m_new` new observations
+ at a new row, stored in `*out`.
+
+ Errors: as `pf_model_mean_response`, plus `PF_ERR_MODEL_REPLICATES`
+ (`m_new` = 0). Read-only.
+
+ # Safety
+ As `pf_model_mean_response`.
+ */
+pf_status pf_model_prediction(const pf_model *m,
+                              uint32_t intercept,
+                              const double *row,
+                              size_t row_len,
+                              uint32_t m_new,
+                              double level,
+                              pf_interval *out);
+
+/*
+ Leverage of a new row (its standardised distance from the design's
+ centre), stored in `*out`.
+
+ Errors: as `pf_model_predict`. Read-only.
+
+ # Safety
+ As `pf_model_predict`.
+ */
+pf_status pf_model_leverage(const pf_model *m,
+                            uint32_t intercept,
+                            const double *row,
+                            size_t row_len,
+                            double *out);
 
 /*
  A short English description of `status` (any number, known or not).

@@ -22,9 +22,11 @@
 mod boundary;
 pub mod fit;
 pub mod line;
+pub mod model;
 pub mod status;
 pub mod version;
 
 pub use fit::{pf_anova, pf_fitted_line, pf_interval};
 pub use line::{pf_layout, pf_line, pf_moments};
+pub use model::{pf_model, pf_model_info};
 pub use status::pf_status;

@@ -31,6 +31,25 @@ pub const PF_ERR_INVALID_FORGETTING: pf_status = 5;
 pub const PF_ERR_INVALID_LEVEL: pf_status = 6;
 /// A replicate count of zero.
 pub const PF_ERR_INVALID_COUNT: pf_status = 7;
+/// Model: a regressor or response value is NaN or infinite.
+pub const PF_ERR_MODEL_NON_FINITE: pf_status = 20;
+/// Model: a weight is zero, negative or not finite.
+pub const PF_ERR_MODEL_INVALID_WEIGHT: pf_status = 21;
+/// Model: an array has the wrong length for p, or two accumulators have
+/// different p.
+pub const PF_ERR_MODEL_DIMENSION: pf_status = 22;
+/// Model: the number of coefficients is 0 or above `PF_MODEL_MAX_PARAMS`.
+pub const PF_ERR_MODEL_PARAM_COUNT: pf_status = 23;
+/// Model: a forgetting factor outside (0, 1].
+pub const PF_ERR_MODEL_FORGETTING: pf_status = 24;
+/// Model: a confidence level outside (0, 1).
+pub const PF_ERR_MODEL_LEVEL: pf_status = 25;
+/// Model: a replicate count of zero.
+pub const PF_ERR_MODEL_REPLICATES: pf_status = 26;
+/// Model: state storage too small (see `pf_model_layout`).
+pub const PF_ERR_MODEL_STORAGE_TOO_SMALL: pf_status = 27;
+/// Model: the storage does not hold a valid model state.
+pub const PF_ERR_MODEL_INVALID_STORAGE: pf_status = 28;
 /// A required pointer argument is NULL.
 pub const PF_ERR_NULL_POINTER: pf_status = 60;
 /// Caller storage or an output array is too small.
@@ -49,6 +68,12 @@ pub const PF_ERR_BAD_ARGUMENT: pf_status = 65;
 pub const PF_ERR_NEEDS_FULL_TIER: pf_status = 66;
 /// `_free` was called on a handle that lives in caller storage.
 pub const PF_ERR_IN_PLACE_HANDLE: pf_status = 67;
+/// Model: a column is numerically a combination of earlier columns.
+pub const PF_ERR_RANK_DEFICIENT: pf_status = 120;
+/// Model: too few rows for the result (a fit needs p + 1).
+pub const PF_ERR_TOO_FEW_ROWS: pf_status = 121;
+/// Model: the state would overflow (values too large in magnitude).
+pub const PF_ERR_MODEL_OVERFLOW: pf_status = 122;
 /// The library could not allocate memory for a new handle (use caller
 /// storage with `_init_in` to avoid the heap).
 pub const PF_ERR_OUT_OF_MEMORY: pf_status = 68;
@@ -80,6 +105,18 @@ fn message(status: u32) -> &'static str {
         PF_ERR_INVALID_FORGETTING => "forgetting factor must lie in (0, 1]\0",
         PF_ERR_INVALID_LEVEL => "confidence level must lie in (0, 1)\0",
         PF_ERR_INVALID_COUNT => "replicate count must be at least 1\0",
+        PF_ERR_MODEL_NON_FINITE => "model: non-finite value\0",
+        PF_ERR_MODEL_INVALID_WEIGHT => "model: weight is not a positive finite number\0",
+        PF_ERR_MODEL_DIMENSION => "model: length does not match the number of coefficients\0",
+        PF_ERR_MODEL_PARAM_COUNT => "model: number of coefficients must be 1 to 16\0",
+        PF_ERR_MODEL_FORGETTING => "model: forgetting factor must lie in (0, 1]\0",
+        PF_ERR_MODEL_LEVEL => "model: confidence level must lie in (0, 1)\0",
+        PF_ERR_MODEL_REPLICATES => "model: replicate count must be at least 1\0",
+        PF_ERR_MODEL_STORAGE_TOO_SMALL => "model: state storage too small\0",
+        PF_ERR_MODEL_INVALID_STORAGE => "model: storage holds no valid state\0",
+        PF_ERR_RANK_DEFICIENT => "model: rank deficient design\0",
+        PF_ERR_TOO_FEW_ROWS => "model: too few rows\0",
+        PF_ERR_MODEL_OVERFLOW => "model: state overflow\0",
         PF_ERR_NULL_POINTER => "null pointer argument\0",
         PF_ERR_BUFFER_TOO_SMALL => "buffer too small\0",
         PF_ERR_MISALIGNED => "buffer misaligned\0",

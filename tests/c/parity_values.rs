@@ -10,6 +10,7 @@
 #![allow(clippy::unwrap_used)]
 
 use pf_core::line::{Anova, Interval};
+use pf_core::model::{InterceptMode, ModelFit, ModelFitOptions, ModelMoments};
 use pf_core::{FitOptions, LineFit, PairMoments, Tier, WeightMeaning};
 use pf_core::{Full, Lean};
 
@@ -202,6 +203,128 @@ fn scenario<T: Tier>(o: &mut Out, tag: &str, d: &[[f64; 3]]) {
     o.fit(&format!("{tag}.forget.fit"), &fg.fit().unwrap());
 }
 
+impl Out {
+    fn model_fit(&mut self, p: &str, f: &ModelFit) {
+        // Field order of `pf_model_info`, then the caller arrays.
+        self.n(&format!("{p}.params"), f.params() as u64);
+        let fp = f.f_p_value();
+        for (k, v) in [
+            ("has_intercept", f.has_intercept),
+            ("exact_fit", f.exact_fit),
+            ("forgetting_applied", f.forgetting_applied),
+            ("has_r_squared", f.r_squared.is_some()),
+            ("has_model_ms", f.ms_model.is_some()),
+            ("has_f_stat", f.f_stat.is_some()),
+            ("has_f_p", fp.is_some()),
+        ] {
+            self.n(&format!("{p}.{k}"), v as u64);
+        }
+        self.n(&format!("{p}.rows"), f.rows);
+        for (k, v) in [
+            ("weight_sum", f.weight_sum),
+            ("effective_rows", f.effective_rows),
+            ("resid_ss", f.sse),
+            ("model_ss", f.ss_model),
+            ("total_ss", f.ss_total),
+            ("resid_sd", f.residual_sd),
+            ("r_squared", f.r_squared.unwrap_or(0.0)),
+            ("r_squared_adj", f.adj_r_squared.unwrap_or(0.0)),
+        ] {
+            self.f(&format!("{p}.{k}"), v);
+        }
+        self.n(&format!("{p}.model_df"), f.df_model);
+        self.n(&format!("{p}.resid_df"), f.df_resid);
+        for (k, v) in [
+            ("model_ms", f.ms_model.unwrap_or(0.0)),
+            ("resid_ms", f.ms_resid),
+            ("f_stat", f.f_stat.unwrap_or(0.0)),
+            ("f_p", fp.unwrap_or(0.0)),
+            ("condition_estimate", f.condition_estimate),
+        ] {
+            self.f(&format!("{p}.{k}"), v);
+        }
+        for (j, v) in f.coefficients.iter().enumerate() {
+            self.f(&format!("{p}.coef{j}"), *v);
+        }
+        for (j, v) in f.std_errors.iter().enumerate() {
+            self.f(&format!("{p}.se{j}"), *v);
+        }
+        for (j, v) in f.covariance.iter().enumerate() {
+            self.f(&format!("{p}.cov{j}"), *v);
+        }
+        for (j, i) in f.coef_intervals(0.95).unwrap().iter().enumerate() {
+            self.f(&format!("{p}.ci{j}.lower"), i.lower);
+            self.f(&format!("{p}.ci{j}.upper"), i.upper);
+        }
+    }
+
+    fn model_at(&mut self, p: &str, f: &ModelFit, row: &[f64]) {
+        self.f(&format!("{p}.predict"), f.predict(row).unwrap());
+        self.f(&format!("{p}.leverage"), f.leverage(row).unwrap());
+        let i = f.mean_response(row, 0.95).unwrap();
+        self.f(&format!("{p}.mean.estimate"), i.estimate);
+        self.f(&format!("{p}.mean.std_error"), i.std_error);
+        self.f(&format!("{p}.mean.lower"), i.lower);
+        self.f(&format!("{p}.mean.upper"), i.upper);
+        let i = f.prediction(row, 2, 0.9).unwrap();
+        self.f(&format!("{p}.pred.estimate"), i.estimate);
+        self.f(&format!("{p}.pred.std_error"), i.std_error);
+        self.f(&format!("{p}.pred.lower"), i.lower);
+        self.f(&format!("{p}.pred.upper"), i.upper);
+    }
+}
+
+/// Model accumulator scenarios, in the order `tests/c/test_line.c` runs them.
+fn model_scenarios(o: &mut Out, d: &[[f64; 3]]) {
+    let detect = ModelFitOptions::default();
+    let n = 200;
+    // Quadratic in x through the polynomial row builder.
+    let mut q = ModelMoments::new(3).unwrap();
+    for p in &d[..n] {
+        q.push_powers(p[0], p[1], 1.0).unwrap();
+    }
+    let f = q.fit(&detect).unwrap();
+    o.model_fit("model.powers", &f);
+    let x0 = d[7][0] + 3.25;
+    o.model_at("model.powers.at", &f, &[1.0, x0, x0 * x0]);
+    // Straight line from explicit rows [1, x]: push, block, weighted, merge,
+    // forgetting, no-intercept.
+    let rows: Vec<f64> = d.iter().flat_map(|p| [1.0, p[0]]).collect();
+    let ys: Vec<f64> = d.iter().map(|p| p[1]).collect();
+    let ws: Vec<f64> = d.iter().map(|p| p[2]).collect();
+    let mut a = ModelMoments::new(2).unwrap();
+    for p in d {
+        a.push_row(&[1.0, p[0]], p[1]).unwrap();
+    }
+    o.model_fit("model.rows", &a.fit(&detect).unwrap());
+    let none = ModelFitOptions::with_intercept(InterceptMode::None);
+    o.model_fit("model.rows.none", &a.fit(&none).unwrap());
+    let mut b = ModelMoments::new(2).unwrap();
+    b.extend_rows(&rows, &ys).unwrap();
+    o.model_fit("model.extend", &b.fit(&detect).unwrap());
+    let mut c = ModelMoments::new(2).unwrap();
+    c.extend_rows_weighted(&rows, &ys, &ws).unwrap();
+    o.model_fit("model.wextend", &c.fit(&detect).unwrap());
+    let mut e = ModelMoments::new(2).unwrap();
+    for p in d {
+        e.push_row_weighted(&[1.0, p[0]], p[1], p[2]).unwrap();
+    }
+    o.model_fit("model.wpush", &e.fit(&detect).unwrap());
+    let cut = d.len() / 3;
+    let mut l = ModelMoments::new(2).unwrap();
+    l.extend_rows(&rows[..2 * cut], &ys[..cut]).unwrap();
+    let mut r = ModelMoments::new(2).unwrap();
+    r.extend_rows(&rows[2 * cut..], &ys[cut..]).unwrap();
+    l.merge(&r).unwrap();
+    o.model_fit("model.merge", &l.fit(&detect).unwrap());
+    let half = d.len() / 2;
+    let mut g = ModelMoments::new(2).unwrap();
+    g.extend_rows(&rows[..2 * half], &ys[..half]).unwrap();
+    g.forget(0.9).unwrap();
+    g.extend_rows(&rows[2 * half..], &ys[half..]).unwrap();
+    o.model_fit("model.forget", &g.fit(&detect).unwrap());
+}
+
 fn main() {
     let d = data(1000);
     let mut o = Out(Vec::new());
@@ -217,6 +340,7 @@ fn main() {
     let (lo, hi) = full.y_range().unwrap();
     o.f("full.y_range.min", lo);
     o.f("full.y_range.max", hi);
+    model_scenarios(&mut o, &d);
 
     println!("data {}", d.len());
     for p in &d {

@@ -5,7 +5,8 @@
  *  - bit-for-bit parity with the Rust core (reference values printed by
  *    `cargo run -p plumbfit-ffi --example parity_values`, file in argv[1]),
  *  - NIST StRD Norris certified values (file read from $PLUMBFIT_REFDATA),
- *  - errors leave the accumulator unchanged.
+ *  - errors leave the accumulator unchanged,
+ *  - the same for the model accumulator (parity and Norris).
  * Compiled as C99 and as C++ (see tests/c/run.sh).
  */
 #include "plumbfit.h"
@@ -384,6 +385,156 @@ static void scenario(const char *tag, uint32_t tier, const double *xs, const dou
     CHECK_STATUS(pf_line_free(l), PF_OK);
 }
 
+
+/* ---- model accumulator parity ---- */
+
+static void emit_model(const char *p, const pf_model *m, uint32_t intercept) {
+    pf_model_info i;
+    double coef[PF_MODEL_MAX_PARAMS], se[PF_MODEL_MAX_PARAMS];
+    double cov[PF_MODEL_MAX_PARAMS * PF_MODEL_MAX_PARAMS];
+    pf_interval ci[PF_MODEL_MAX_PARAMS];
+    size_t k, np = 0;
+    char name[64];
+
+    CHECK_STATUS(pf_model_params(m, &np), PF_OK);
+    CHECK_STATUS(pf_model_fit(m, intercept, &i, coef, PF_MODEL_MAX_PARAMS, se, np), PF_OK);
+    CHECK_STATUS(pf_model_covariance(m, intercept, cov, np * np), PF_OK);
+    CHECK_STATUS(pf_model_coef_intervals(m, intercept, 0.95, ci, np), PF_OK);
+    pn(p, "params", i.params);
+    pn(p, "has_intercept", i.has_intercept ? 1 : 0);
+    pn(p, "exact_fit", i.exact_fit ? 1 : 0);
+    pn(p, "forgetting_applied", i.forgetting_applied ? 1 : 0);
+    pn(p, "has_r_squared", i.has_r_squared ? 1 : 0);
+    pn(p, "has_model_ms", i.has_model_ms ? 1 : 0);
+    pn(p, "has_f_stat", i.has_f_stat ? 1 : 0);
+    pn(p, "has_f_p", i.has_f_p ? 1 : 0);
+    pn(p, "rows", i.rows);
+    pf(p, "weight_sum", i.weight_sum);
+    pf(p, "effective_rows", i.effective_rows);
+    pf(p, "resid_ss", i.resid_ss);
+    pf(p, "model_ss", i.model_ss);
+    pf(p, "total_ss", i.total_ss);
+    pf(p, "resid_sd", i.resid_sd);
+    pf(p, "r_squared", i.r_squared);
+    pf(p, "r_squared_adj", i.r_squared_adj);
+    pn(p, "model_df", i.model_df);
+    pn(p, "resid_df", i.resid_df);
+    pf(p, "model_ms", i.model_ms);
+    pf(p, "resid_ms", i.resid_ms);
+    pf(p, "f_stat", i.f_stat);
+    pf(p, "f_p", i.f_p);
+    pf(p, "condition_estimate", i.condition_estimate);
+    for (k = 0; k < np; k++) {
+        snprintf(name, sizeof name, "coef%lu", (unsigned long)k);
+        pf(p, name, coef[k]);
+    }
+    for (k = 0; k < np; k++) {
+        snprintf(name, sizeof name, "se%lu", (unsigned long)k);
+        pf(p, name, se[k]);
+    }
+    for (k = 0; k < np * np; k++) {
+        snprintf(name, sizeof name, "cov%lu", (unsigned long)k);
+        pf(p, name, cov[k]);
+    }
+    for (k = 0; k < np; k++) {
+        snprintf(name, sizeof name, "ci%lu.lower", (unsigned long)k);
+        pf(p, name, ci[k].lower);
+        snprintf(name, sizeof name, "ci%lu.upper", (unsigned long)k);
+        pf(p, name, ci[k].upper);
+    }
+}
+
+static void emit_model_at(const char *p, const pf_model *m, const double *row, size_t len) {
+    double v = 0;
+    pf_interval iv;
+    CHECK_STATUS(pf_model_predict(m, PF_INTERCEPT_DETECT, row, len, &v), PF_OK);
+    pf(p, "predict", v);
+    CHECK_STATUS(pf_model_leverage(m, PF_INTERCEPT_DETECT, row, len, &v), PF_OK);
+    pf(p, "leverage", v);
+    CHECK_STATUS(pf_model_mean_response(m, PF_INTERCEPT_DETECT, row, len, 0.95, &iv), PF_OK);
+    pf(p, "mean.estimate", iv.estimate);
+    pf(p, "mean.std_error", iv.std_error);
+    pf(p, "mean.lower", iv.lower);
+    pf(p, "mean.upper", iv.upper);
+    CHECK_STATUS(pf_model_prediction(m, PF_INTERCEPT_DETECT, row, len, 2, 0.9, &iv), PF_OK);
+    pf(p, "pred.estimate", iv.estimate);
+    pf(p, "pred.std_error", iv.std_error);
+    pf(p, "pred.lower", iv.lower);
+    pf(p, "pred.upper", iv.upper);
+}
+
+/* Caller storage for the quadratic model: sized by a layout query below. */
+static uint64_t model_storage[512];
+
+static void model_scenarios(const double *xs, const double *ys, const double *ws, size_t n) {
+    pf_model *q = NULL, *a = NULL, *r = NULL;
+    pf_layout lay;
+    double *rows = (double *)malloc(2 * n * sizeof *rows);
+    double row[3], x0;
+    size_t i, cut = n / 3, half = n / 2, sub = 200;
+
+    for (i = 0; i < n; i++) {
+        rows[2 * i] = 1.0;
+        rows[2 * i + 1] = xs[i];
+    }
+    CHECK_STATUS(pf_model_layout(3, &lay), PF_OK);
+    CHECK(lay.size <= sizeof model_storage && lay.align <= 8);
+    CHECK_STATUS(pf_model_init_in(model_storage, sizeof model_storage, 3, &q), PF_OK);
+    for (i = 0; i < sub && i < n; i++) CHECK_STATUS(pf_model_push_powers(q, xs[i], ys[i], 1.0), PF_OK);
+    emit_model("model.powers", q, PF_INTERCEPT_DETECT);
+    x0 = xs[7] + 3.25;
+    row[0] = 1.0;
+    row[1] = x0;
+    row[2] = x0 * x0;
+    emit_model_at("model.powers.at", q, row, 3);
+    CHECK_STATUS(pf_model_free(q), PF_ERR_IN_PLACE_HANDLE);
+
+    CHECK_STATUS(pf_model_new(2, &a), PF_OK);
+    for (i = 0; i < n; i++) CHECK_STATUS(pf_model_push(a, rows + 2 * i, 2, ys[i]), PF_OK);
+    emit_model("model.rows", a, PF_INTERCEPT_DETECT);
+    emit_model("model.rows.none", a, PF_INTERCEPT_NONE);
+    CHECK_STATUS(pf_model_reset(a), PF_OK);
+    CHECK_STATUS(pf_model_extend(a, rows, 2 * n, ys, n), PF_OK);
+    emit_model("model.extend", a, PF_INTERCEPT_DETECT);
+    CHECK_STATUS(pf_model_reset(a), PF_OK);
+    CHECK_STATUS(pf_model_extend_weighted(a, rows, 2 * n, ys, ws, n), PF_OK);
+    emit_model("model.wextend", a, PF_INTERCEPT_DETECT);
+    CHECK_STATUS(pf_model_reset(a), PF_OK);
+    for (i = 0; i < n; i++)
+        CHECK_STATUS(pf_model_push_weighted(a, rows + 2 * i, 2, ys[i], ws[i]), PF_OK);
+    emit_model("model.wpush", a, PF_INTERCEPT_DETECT);
+    CHECK_STATUS(pf_model_reset(a), PF_OK);
+    CHECK_STATUS(pf_model_new(2, &r), PF_OK);
+    CHECK_STATUS(pf_model_extend(a, rows, 2 * cut, ys, cut), PF_OK);
+    CHECK_STATUS(pf_model_extend(r, rows + 2 * cut, 2 * (n - cut), ys + cut, n - cut), PF_OK);
+    CHECK_STATUS(pf_model_merge(a, r), PF_OK);
+    emit_model("model.merge", a, PF_INTERCEPT_DETECT);
+    CHECK_STATUS(pf_model_reset(a), PF_OK);
+    CHECK_STATUS(pf_model_extend(a, rows, 2 * half, ys, half), PF_OK);
+    CHECK_STATUS(pf_model_forget(a, 0.9), PF_OK);
+    CHECK_STATUS(pf_model_extend(a, rows + 2 * half, 2 * (n - half), ys + half, n - half), PF_OK);
+    emit_model("model.forget", a, PF_INTERCEPT_DETECT);
+    /* Mixing p is refused; self-merge doubles the rows. */
+    {
+        pf_model *three = NULL;
+        uint64_t before = 0, after = 0;
+        CHECK_STATUS(pf_model_new(3, &three), PF_OK);
+        CHECK_STATUS(pf_model_merge(a, three), PF_ERR_MODEL_DIMENSION);
+        CHECK_STATUS(pf_model_free(three), PF_OK);
+        CHECK_STATUS(pf_model_count(a, &before), PF_OK);
+        CHECK_STATUS(pf_model_merge(a, a), PF_OK);
+        CHECK_STATUS(pf_model_count(a, &after), PF_OK);
+        CHECK(after == 2 * before);
+        CHECK_STATUS(pf_model_forget(a, 0.0), PF_ERR_MODEL_FORGETTING);
+        CHECK_STATUS(pf_model_push(a, row, 2, NAN), PF_ERR_MODEL_NON_FINITE);
+        CHECK_STATUS(pf_model_count(a, &before), PF_OK);
+        CHECK(after == before);
+    }
+    CHECK_STATUS(pf_model_free(r), PF_OK);
+    CHECK_STATUS(pf_model_free(a), PF_OK);
+    free(rows);
+}
+
 static double from_bits(uint64_t b) {
     double v;
     memcpy(&v, &b, sizeof v);
@@ -450,6 +601,7 @@ static void test_parity(const char *path) {
     pf("full.y_range", "min", lo);
     pf("full.y_range", "max", hi);
     CHECK_STATUS(pf_line_free(full), PF_OK);
+    model_scenarios(xs, ys, ws, n);
 
     if (next_expect != n_expect) {
         fprintf(stderr, "parity: %lu Rust values never computed in C\n",
@@ -507,6 +659,9 @@ static void test_norris(void) {
     long len;
     double b0, b1, sb0, sb1, rsd, r2, ssr, sse, f;
     pf_line *l = NULL;
+    pf_model *model = NULL;
+    pf_model_info info;
+    double coef[2], se[2];
     pf_fitted_line fit;
     int lineno = 0;
     char *s;
@@ -538,11 +693,15 @@ static void test_norris(void) {
     CHECK(certified(text, "Residual ", 1, &sse));
 
     CHECK_STATUS(pf_line_new(PF_TIER_LEAN, &l), PF_OK);
+    CHECK_STATUS(pf_model_new(2, &model), PF_OK);
     /* Data start on line 61 of the file (its header says so): "y x". */
     for (s = strtok(text, "\n"); s; s = strtok(NULL, "\n")) {
         double y, x;
         if (++lineno < 61) continue;
-        if (sscanf(s, "%lf %lf", &y, &x) == 2) CHECK_STATUS(pf_line_push(l, x, y), PF_OK);
+        if (sscanf(s, "%lf %lf", &y, &x) == 2) {
+            CHECK_STATUS(pf_line_push(l, x, y), PF_OK);
+            CHECK_STATUS(pf_model_push_powers(model, x, y, 1.0), PF_OK);
+        }
     }
     CHECK_STATUS(pf_line_fit(l, 0, &fit), PF_OK);
     CHECK(fit.count == 36);
@@ -561,6 +720,20 @@ static void test_norris(void) {
     CHECK(close_rel(fit.f_stat, f, 1e-12));
     printf("norris: slope %.15g (certified %.15g), intercept %.15g (certified %.15g)\n",
            fit.slope, b1, fit.intercept, b0);
+    /* The same certified values through the model accumulator (same
+     * source, same tolerance and reason). */
+    CHECK_STATUS(pf_model_fit(model, PF_INTERCEPT_DETECT, &info, coef, 2, se, 2), PF_OK);
+    CHECK(info.rows == 36 && info.has_intercept && info.has_f_stat && info.has_r_squared);
+    CHECK(close_rel(coef[0], b0, 1e-12));
+    CHECK(close_rel(coef[1], b1, 1e-12));
+    CHECK(close_rel(se[0], sb0, 1e-12));
+    CHECK(close_rel(se[1], sb1, 1e-12));
+    CHECK(close_rel(info.resid_sd, rsd, 1e-12));
+    CHECK(close_rel(info.r_squared, r2, 1e-12));
+    CHECK(close_rel(info.model_ss, ssr, 1e-12));
+    CHECK(close_rel(info.resid_ss, sse, 1e-12));
+    CHECK(close_rel(info.f_stat, f, 1e-12));
+    CHECK_STATUS(pf_model_free(model), PF_OK);
     CHECK_STATUS(pf_line_free(l), PF_OK);
     free(text);
 }

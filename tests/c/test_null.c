@@ -143,6 +143,104 @@ int main(void) {
     EXPECT(pf_fitted_line_chi_square_p(&fit, NULL), NP);
     CHECK(d == 7.0);
 
+    /* ---- model accumulator ---- */
+    {
+        pf_model *mm = NULL, *mu = NULL;
+        pf_model_info info;
+        size_t pp = 7;
+        double row[2] = {1.0, 2.0};
+        double rows[8] = {1.0, 1.0, 1.0, 2.0, 1.0, 3.0, 1.0, 4.0};
+        double coef[2] = {7.0, 7.0}, se[2] = {7.0, 7.0}, cov[4];
+        pf_interval ivs[2];
+        uint64_t mraw[64];
+
+        EXPECT(pf_model_layout(2, NULL), NP);
+        EXPECT(pf_model_layout(0, &lay), PF_ERR_MODEL_PARAM_COUNT);
+        EXPECT(pf_model_layout(PF_MODEL_MAX_PARAMS + 1, &lay), PF_ERR_MODEL_PARAM_COUNT);
+        EXPECT(pf_model_init_in(NULL, sizeof mraw, 2, &mu), NP);
+        EXPECT(pf_model_init_in(NULL, 0, 2, &mu), NP);
+        EXPECT(pf_model_init_in(mraw, sizeof mraw, 2, NULL), NP);
+        EXPECT(pf_model_init_in(mraw, 0, 2, &mu), PF_ERR_BUFFER_TOO_SMALL);
+        EXPECT(pf_model_init_in(mraw, sizeof mraw, 16, &mu), PF_ERR_BUFFER_TOO_SMALL);
+        EXPECT(pf_model_init_in((char *)(void *)mraw + 4, sizeof mraw - 4, 2, &mu),
+               PF_ERR_MISALIGNED);
+        EXPECT(pf_model_init_in(mraw, sizeof mraw, 0, &mu), PF_ERR_MODEL_PARAM_COUNT);
+        EXPECT(pf_model_new(2, NULL), NP);
+        EXPECT(pf_model_new(17, &mu), PF_ERR_MODEL_PARAM_COUNT);
+        CHECK(mu == NULL);
+        EXPECT(pf_model_free(NULL), PF_OK);
+        EXPECT(pf_model_free((pf_model *)(void *)l), PF_ERR_BAD_HANDLE);
+
+        EXPECT(pf_model_new(2, &mm), PF_OK);
+        EXPECT(pf_model_reset(NULL), NP);
+        EXPECT(pf_model_params(NULL, &pp), NP);
+        EXPECT(pf_model_params(mm, NULL), NP);
+        EXPECT(pf_model_count(NULL, &n), NP);
+        EXPECT(pf_model_count(mm, NULL), NP);
+        EXPECT(pf_model_push(NULL, row, 2, 1.0), NP);
+        EXPECT(pf_model_push(mm, NULL, 2, 1.0), NP);
+        EXPECT(pf_model_push(mm, NULL, 0, 1.0), NP);
+        EXPECT(pf_model_push(mm, row, 1, 1.0), PF_ERR_MODEL_DIMENSION);
+        EXPECT(pf_model_push(mm, row, 0, 1.0), PF_ERR_MODEL_DIMENSION);
+        EXPECT(pf_model_push(mm, row, SIZE_MAX, 1.0), PF_ERR_BAD_ARGUMENT);
+        EXPECT(pf_model_push(mm, misaligned, 2, 1.0), PF_ERR_MISALIGNED);
+        EXPECT(pf_model_push_weighted(NULL, row, 2, 1.0, 1.0), NP);
+        EXPECT(pf_model_push_weighted(mm, NULL, 2, 1.0, 1.0), NP);
+        EXPECT(pf_model_push_weighted(mm, row, 3, 1.0, 1.0), PF_ERR_MODEL_DIMENSION);
+        EXPECT(pf_model_push_powers(NULL, 1.0, 1.0, 1.0), NP);
+        EXPECT(pf_model_extend(NULL, rows, 8, ys, 4), NP);
+        EXPECT(pf_model_extend(mm, NULL, 8, ys, 4), NP);
+        EXPECT(pf_model_extend(mm, rows, 8, NULL, 4), NP);
+        EXPECT(pf_model_extend(mm, NULL, 0, NULL, 0), NP);
+        EXPECT(pf_model_extend(mm, rows, 7, ys, 4), PF_ERR_MODEL_DIMENSION);
+        EXPECT(pf_model_extend(mm, rows, SIZE_MAX, ys, 4), PF_ERR_BAD_ARGUMENT);
+        EXPECT(pf_model_extend_weighted(NULL, rows, 8, ys, ws, 4), NP);
+        EXPECT(pf_model_extend_weighted(mm, NULL, 8, ys, ws, 4), NP);
+        EXPECT(pf_model_extend_weighted(mm, rows, 8, NULL, ws, 4), NP);
+        EXPECT(pf_model_extend_weighted(mm, rows, 8, ys, NULL, 4), NP);
+        EXPECT(pf_model_extend_weighted(mm, rows, 8, ys, ws, 3), PF_ERR_MODEL_DIMENSION);
+        EXPECT(pf_model_forget(NULL, 0.5), NP);
+        EXPECT(pf_model_merge(NULL, mm), NP);
+        EXPECT(pf_model_merge(mm, NULL), NP);
+        EXPECT(pf_model_fit(NULL, 0, &info, coef, 2, se, 2), NP);
+        EXPECT(pf_model_fit(mm, 0, NULL, coef, 2, se, 2), NP);
+        EXPECT(pf_model_fit(mm, 0, &info, NULL, 2, se, 2), NP);
+        EXPECT(pf_model_fit(mm, 0, &info, coef, 2, NULL, 2), NP);
+        EXPECT(pf_model_count(mm, &n), PF_OK);
+        CHECK(n == 0);
+        EXPECT(pf_model_fit(mm, 0, &info, coef, 2, se, 2), PF_ERR_TOO_FEW_ROWS);
+        EXPECT(pf_model_extend(mm, rows, 8, ys, 4), PF_OK);
+        EXPECT(pf_model_fit(mm, 0, &info, coef, 1, se, 2), PF_ERR_BUFFER_TOO_SMALL);
+        EXPECT(pf_model_fit(mm, 0, &info, coef, 2, se, 0), PF_ERR_BUFFER_TOO_SMALL);
+        EXPECT(pf_model_fit(mm, 9u, &info, coef, 2, se, 2), PF_ERR_BAD_ARGUMENT);
+        CHECK(coef[0] == 7.0 && se[0] == 7.0);
+        EXPECT(pf_model_covariance(NULL, 0, cov, 4), NP);
+        EXPECT(pf_model_covariance(mm, 0, NULL, 4), NP);
+        EXPECT(pf_model_covariance(mm, 0, cov, 3), PF_ERR_BUFFER_TOO_SMALL);
+        EXPECT(pf_model_coef_intervals(NULL, 0, 0.95, ivs, 2), NP);
+        EXPECT(pf_model_coef_intervals(mm, 0, 0.95, NULL, 2), NP);
+        EXPECT(pf_model_coef_intervals(mm, 0, 0.95, ivs, 1), PF_ERR_BUFFER_TOO_SMALL);
+        EXPECT(pf_model_coef_intervals(mm, 0, 1.5, ivs, 2), PF_ERR_MODEL_LEVEL);
+        EXPECT(pf_model_predict(NULL, 0, row, 2, &d), NP);
+        EXPECT(pf_model_predict(mm, 0, NULL, 2, &d), NP);
+        EXPECT(pf_model_predict(mm, 0, row, 2, NULL), NP);
+        EXPECT(pf_model_predict(mm, 0, row, 1, &d), PF_ERR_MODEL_DIMENSION);
+        EXPECT(pf_model_mean_response(NULL, 0, row, 2, 0.95, &iv), NP);
+        EXPECT(pf_model_mean_response(mm, 0, NULL, 2, 0.95, &iv), NP);
+        EXPECT(pf_model_mean_response(mm, 0, row, 2, 0.95, NULL), NP);
+        EXPECT(pf_model_mean_response(mm, 0, row, 3, 0.95, &iv), PF_ERR_MODEL_DIMENSION);
+        EXPECT(pf_model_prediction(NULL, 0, row, 2, 1, 0.95, &iv), NP);
+        EXPECT(pf_model_prediction(mm, 0, NULL, 2, 1, 0.95, &iv), NP);
+        EXPECT(pf_model_prediction(mm, 0, row, 2, 1, 0.95, NULL), NP);
+        EXPECT(pf_model_prediction(mm, 0, row, 2, 0, 0.95, &iv), PF_ERR_MODEL_REPLICATES);
+        EXPECT(pf_model_leverage(NULL, 0, row, 2, &d), NP);
+        EXPECT(pf_model_leverage(mm, 0, NULL, 2, &d), NP);
+        EXPECT(pf_model_leverage(mm, 0, row, 2, NULL), NP);
+        CHECK(d == 7.0);
+        EXPECT(pf_model_free(mm), PF_OK);
+        (void)pp;
+    }
+
     EXPECT(pf_line_free(l), PF_OK);
     (void)lay;
     if (failures) {
