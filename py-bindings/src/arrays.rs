@@ -1,0 +1,128 @@
+//! Turning Python arguments into `&[f64]` for the core.
+//!
+//! * A 1-D, C-contiguous, native-byte-order `float64` ndarray is borrowed:
+//!   the core reads NumPy's buffer directly, nothing is copied.
+//! * Anything else that NumPy can turn into a 1-D real array (lists,
+//!   tuples, integer/bool/float32 arrays, strided views, big-endian data) is
+//!   converted once into a new contiguous `float64` buffer.
+//! * Complex, object, string and other non-real dtypes raise `TypeError`
+//!   naming the dtype; arrays that are not 1-D raise `ValueError` with the
+//!   shape.
+//!
+//! Every conversion increments a counter that the tests read through
+//! `_native._conversion_count()`, so they can prove the borrowed path was
+//! taken.
+
+use numpy::{
+    PyArray1, PyArray2, PyArrayDescrMethods, PyArrayMethods, PyReadonlyArray1, PyReadonlyArray2,
+    PyUntypedArray, PyUntypedArrayMethods,
+};
+use pyo3::exceptions::{PyTypeError, PyValueError};
+use pyo3::prelude::*;
+use pyo3::sync::PyOnceLock;
+use std::sync::atomic::{AtomicU64, Ordering};
+
+static CONVERSIONS: AtomicU64 = AtomicU64::new(0);
+
+/// Number of inputs converted (copied) since import; test hook.
+#[pyfunction]
+pub fn _conversion_count() -> u64 {
+    CONVERSIONS.load(Ordering::Relaxed)
+}
+
+fn numpy_attr<'py>(py: Python<'py>, name: &'static str) -> PyResult<Bound<'py, PyAny>> {
+    static NUMPY: PyOnceLock<Py<PyModule>> = PyOnceLock::new();
+    let np = NUMPY.get_or_try_init(py, || py.import("numpy").map(Bound::unbind))?;
+    np.bind(py).getattr(name)
+}
+
+/// A 1-D float64 input, borrowed from NumPy or converted.
+pub enum Vector<'py> {
+    /// NumPy's own buffer (contiguous float64 input, or our converted copy).
+    Array(PyReadonlyArray1<'py, f64>),
+    /// A strided float64 view gathered into a vector.
+    Gathered(Vec<f64>),
+}
+
+impl Vector<'_> {
+    /// The values as one slice.
+    pub fn as_slice(&self) -> PyResult<&[f64]> {
+        match self {
+            Vector::Array(a) => a
+                .as_slice()
+                .map_err(|e| PyValueError::new_err(format!("array is not contiguous: {e}"))),
+            Vector::Gathered(v) => Ok(v),
+        }
+    }
+}
+
+fn readonly<'py, D: numpy::ndarray::Dimension>(
+    a: &Bound<'py, numpy::PyArray<f64, D>>,
+    name: &str,
+) -> PyResult<numpy::PyReadonlyArray<'py, f64, D>> {
+    a.try_readonly().map_err(|e| {
+        PyValueError::new_err(format!(
+            "{name}: array is being written elsewhere and cannot be read ({e})"
+        ))
+    })
+}
+
+/// Refuses non-real dtypes and wrong dimensionality, then converts to a
+/// fresh C-contiguous float64 array.
+fn convert<'py>(obj: &Bound<'py, PyAny>, name: &str, ndim: usize) -> PyResult<Bound<'py, PyAny>> {
+    let py = obj.py();
+    let arr = if obj.cast::<PyUntypedArray>().is_ok() {
+        obj.clone()
+    } else {
+        numpy_attr(py, "asarray")?.call1((obj,)).map_err(|e| {
+            PyTypeError::new_err(format!("{name}: cannot be read as a real array ({e})"))
+        })?
+    };
+    let untyped = arr.cast::<PyUntypedArray>()?;
+    let dtype = untyped.dtype();
+    let kind = dtype.kind();
+    if !matches!(kind, b'f' | b'i' | b'u' | b'b') {
+        return Err(PyTypeError::new_err(format!(
+            "{name}: dtype {} is not a real number type",
+            dtype.str()?
+        )));
+    }
+    if untyped.ndim() != ndim {
+        return Err(PyValueError::new_err(format!(
+            "{name}: expected a {ndim}-D array, got shape {:?}",
+            untyped.shape()
+        )));
+    }
+    CONVERSIONS.fetch_add(1, Ordering::Relaxed);
+    let f64_dtype = numpy::dtype::<f64>(py);
+    numpy_attr(py, "ascontiguousarray")?.call1((arr, f64_dtype))
+}
+
+/// Reads a 1-D argument; see the module docs for what is copied.
+pub fn vector<'py>(obj: &Bound<'py, PyAny>, name: &str) -> PyResult<Vector<'py>> {
+    if let Ok(a) = obj.cast::<PyArray1<f64>>() {
+        let ro = readonly(a, name)?;
+        if a.is_c_contiguous() {
+            return Ok(Vector::Array(ro));
+        }
+        CONVERSIONS.fetch_add(1, Ordering::Relaxed);
+        return Ok(Vector::Gathered(ro.as_array().iter().copied().collect()));
+    }
+    let converted = convert(obj, name, 1)?;
+    let a = converted.cast::<PyArray1<f64>>()?;
+    Ok(Vector::Array(readonly(a, name)?))
+}
+
+/// Reads a 2-D argument as a C-contiguous (row-major) float64 matrix,
+/// borrowed when it already is one.
+#[allow(dead_code)] // used by the model accumulator
+pub fn matrix<'py>(obj: &Bound<'py, PyAny>, name: &str) -> PyResult<PyReadonlyArray2<'py, f64>> {
+    if let Ok(a) = obj.cast::<PyArray2<f64>>() {
+        if a.is_c_contiguous() {
+            return readonly(a, name);
+        }
+    }
+    let converted = convert(obj, name, 2)?;
+    let a = converted.cast::<PyArray2<f64>>()?;
+    readonly(a, name)
+}

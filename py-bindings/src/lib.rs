@@ -1,0 +1,24 @@
+//! Python bindings for plumbfit: the native module `plumbfit._native`.
+//!
+//! Every number comes from the core crate; this layer converts arguments,
+//! releases the GIL for large inputs and maps errors (see `errors`).
+
+mod arrays;
+mod errors;
+mod line;
+
+use pyo3::prelude::*;
+
+/// The native extension behind the `plumbfit` package.
+#[pymodule]
+fn _native(m: &Bound<'_, PyModule>) -> PyResult<()> {
+    errors::register(m)?;
+    m.add_class::<line::LineAccumulator>()?;
+    m.add_class::<line::LineFit>()?;
+    m.add_class::<line::Interval>()?;
+    m.add_class::<line::AnovaTable>()?;
+    m.add_function(wrap_pyfunction!(arrays::_conversion_count, m)?)?;
+    m.add("__version__", env!("CARGO_PKG_VERSION"))?;
+    m.add("GIL_RELEASE_PAIRS", line::GIL_RELEASE_PAIRS)?;
+    Ok(())
+}
