@@ -7,7 +7,8 @@ mod calib_support;
 
 use calib_support::*;
 use plumbfit::calib::{
-    weighted_line, CalibError, FixedLevels, LevelSet, PolyCalibration, Reading, VarianceShape,
+    user_weighted_line, weighted_line, CalibError, FixedLevels, LevelSet, PolyCalibration, Reading,
+    VarianceShape,
 };
 use plumbfit::{FullMoments, LeanMoments, WeightMeaning};
 
@@ -375,5 +376,26 @@ fn cubic_calibration_inverse_matches_brute_force() {
     assert_eq!(
         PolyCalibration::new(&c, &cov, 0.1, 0.0, (0.0, 1.0)).map(|_| ()),
         Err(CalibError::InvalidDegreesOfFreedom)
+    );
+}
+
+#[test]
+fn user_weights_match_exact_wls() {
+    let (xs, ys) = data();
+    let ws: Vec<f64> = (0..xs.len()).map(|i| 0.5 + (i % 4) as f64).collect();
+    let fit = user_weighted_line(&xs, &ys, &ws, WeightMeaning::InverseVariance).unwrap();
+    let qx: Vec<_> = xs.iter().map(|&v| q(v)).collect();
+    let qy: Vec<_> = ys.iter().map(|&v| q(v)).collect();
+    let qw: Vec<_> = ws.iter().map(|&v| q(v)).collect();
+    let e = exact_line(&qx, &qy, Some(&qw));
+    // Exact WLS on the same doubles: 1e-12 relative.
+    assert!(rel(fit.slope, f(&e.slope)) < 1e-12);
+    // Known variances: var(b) = 1/Sxx exactly, no rescaling.
+    assert!(rel(fit.se_slope, 1.0 / f(&e.sxx).sqrt()) < 1e-12);
+    let mut bad = ws.clone();
+    bad[3] = 0.0;
+    assert_eq!(
+        user_weighted_line(&xs, &ys, &bad, WeightMeaning::Relative).map(|_| ()),
+        Err(CalibError::InvalidWeight { index: 3 })
     );
 }

@@ -68,6 +68,10 @@ pub struct DecisionLimits {
 impl LineFit {
     /// Detection and quantitation limits `3.3·σ/|S|` and `10·σ/|S|` (ICH Q2).
     ///
+    /// For a weighted fit the residual SD and the intercept's SE are in the
+    /// units of a reading of unit weight; state the blank's SD with
+    /// [`SigmaSource::Given`] when that is not what is meant.
+    ///
     /// # Errors
     /// [`CalibError::ZeroSlope`]; [`CalibError::NoIntercept`] for
     /// [`SigmaSource::InterceptSe`] on a line through the origin;

@@ -18,7 +18,31 @@
 //! * [`weights`]: variance functions for weighted calibration.
 //!
 //! Functions that need a t or F quantile sit behind the `std` feature;
-//! estimates and standard errors do not.
+//! estimates and standard errors do not. [`LevelSet`] needs an allocator;
+//! [`FixedLevels`] does not.
+//!
+//! # Example
+//! ```
+//! use plumbfit::calib::{CalibError, FiellerSet, LevelSet, Reading};
+//! use plumbfit::LeanMoments;
+//! let xs = [0.0, 0.0, 5.0, 5.0, 10.0, 10.0];
+//! let ys = [0.11, 0.09, 5.02, 4.95, 10.04, 9.98];
+//! let mut acc = LeanMoments::new();
+//! let mut levels = LevelSet::new();
+//! acc.extend(&xs, &ys)?;
+//! levels.extend(&xs, &ys)?;
+//! let fit = acc.fit()?;
+//! // The concentration behind the mean of 2 new readings of 7.5.
+//! let inv = fit.invert_interval(&Reading::mean_of(7.5, 2), 0.95)?;
+//! assert!(matches!(inv.set, FiellerSet::Bounded { .. }));
+//! assert!((inv.estimate.x - 7.5).abs() < 0.1);
+//! // Is the straight line adequate? (replicates at every level)
+//! let lof = levels.lack_of_fit_line(&fit)?;
+//! assert_eq!((lof.df_lack_of_fit, lof.df_pure_error), (1, 3));
+//! // A reading of zero replicates is refused with a typed error.
+//! assert_eq!(fit.invert(&Reading::mean_of(7.5, 0)), Err(CalibError::InvalidReplicates));
+//! # Ok::<(), Box<dyn std::error::Error>>(())
+//! ```
 //!
 //! The library computes. Whether a calibration is accepted, and what a
 //! result means where it protects people (gas detection, clinical
@@ -46,7 +70,7 @@ pub use linearity::QuadraticCheck;
 #[cfg(feature = "std")]
 pub use poly::PolyInverseInterval;
 pub use poly::{PolyCalibration, PolyInverse};
-pub use weights::{weighted_line, VarianceShape, WeightedCalibration};
+pub use weights::{user_weighted_line, weighted_line, VarianceShape, WeightedCalibration};
 
 /// Errors from calibration functions. Arguments are checked before any work,
 /// so a failing call changes nothing.

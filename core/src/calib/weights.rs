@@ -183,6 +183,23 @@ pub fn weighted_line(
     }
 }
 
+/// Fits a calibration line with weights supplied by the caller (for example
+/// `1/u²(yᵢ)` from an uncertainty budget), with their meaning stated.
+///
+/// # Errors
+/// [`CalibError::LengthMismatch`]; [`CalibError::NonFinite`] and
+/// [`CalibError::InvalidWeight`] with the offending index; the line errors.
+pub fn user_weighted_line(
+    xs: &[f64],
+    ys: &[f64],
+    ws: &[f64],
+    meaning: WeightMeaning,
+) -> Result<LineFit, CalibError> {
+    let mut acc = LeanMoments::new();
+    acc.extend_weighted(xs, ys, ws)?;
+    Ok(acc.fit_with(&FitOptions::default().with_weights(meaning))?)
+}
+
 impl WeightedCalibration {
     /// A [`Reading`] for the mean `y0` of `replicates` new readings, carrying
     /// the weight the variance function gives at the reading (evaluated at
