@@ -392,6 +392,11 @@ fn user_weights_match_exact_wls() {
     assert!(rel(fit.slope, f(&e.slope)) < 1e-12);
     // Known variances: var(b) = 1/Sxx exactly, no rescaling.
     assert!(rel(fit.se_slope, 1.0 / f(&e.sxx).sqrt()) < 1e-12);
+    assert_eq!(
+        user_weighted_line(&[], &[], &[], WeightMeaning::Relative).map(|_| ()),
+        Err(CalibError::EmptyInput)
+    );
+    assert_eq!(CalibError::EmptyInput.code(), 4);
     let mut bad = ws.clone();
     bad[3] = 0.0;
     assert_eq!(

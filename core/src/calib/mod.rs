@@ -100,6 +100,9 @@ pub enum CalibError {
         /// Length of the input that differs.
         found: usize,
     },
+    /// The input slices are empty.
+    #[error("input is empty")]
+    EmptyInput,
     /// A confidence level or error probability outside `(0, 1)`.
     #[error("probability level must lie in (0, 1)")]
     InvalidLevel,
@@ -208,6 +211,7 @@ impl CalibError {
             CalibError::NonFinite { .. } => 1,
             CalibError::InvalidWeight { .. } => 2,
             CalibError::LengthMismatch { .. } => 3,
+            CalibError::EmptyInput => 4,
             CalibError::InvalidLevel => 6,
             CalibError::InvalidReplicates => 7,
             CalibError::Overflow => 100,
@@ -255,7 +259,7 @@ impl From<MomentsError> for CalibError {
                 expected: x_len,
                 found: other_len,
             },
-            MomentsError::EmptyInput => CalibError::TooFewPoints { needed: 1, have: 0 },
+            MomentsError::EmptyInput => CalibError::EmptyInput,
             _ => CalibError::Overflow,
         }
     }
