@@ -4,9 +4,9 @@
  * A load-cell front end is calibrated against reference masses: each
  * calibration step reads the raw ADC count while a known mass sits on the
  * cell. The accumulator lives in a static buffer; readings are pushed one
- * at a time as they arrive. The calibration line maps raw counts to mass,
- * and a new raw reading becomes a calibrated mass with a 95 % prediction
- * interval.
+ * at a time as they arrive. The calibration line gives counts as a function
+ * of mass; a new raw reading is turned around into a calibrated mass with
+ * its exact (Fieller) 95 % interval, and the detection limit is stated.
  *
  * ALL DATA BELOW ARE INVENTED for illustration; they describe no real
  * device. Whether a calibration is accepted is decided by your quality
@@ -41,7 +41,8 @@ static int report(const char *what, pf_status s) {
 int main(void) {
     pf_line *cal = NULL;
     pf_fitted_line line;
-    pf_interval mass;
+    pf_inverse mass;
+    pf_decision_limits lim;
     unsigned i;
     const double new_raw = 305120.0; /* invented reading to convert */
 
@@ -55,18 +56,27 @@ int main(void) {
 
     /* The acquisition loop: one pair per calibration step. */
     for (i = 0; i < N_READINGS; i++) {
-        if (report("push", pf_line_push(cal, raw_counts[i], ref_mass_g[i]))) return 1;
+        if (report("push", pf_line_push(cal, ref_mass_g[i], raw_counts[i]))) return 1;
     }
 
     if (report("fit", pf_line_fit(cal, 0, &line))) return 1;
-    printf("calibration: mass_g = %.6g + %.9g * counts  (n = %llu, residual sd %.3g g)\n",
+    printf("calibration: counts = %.2f + %.4f * mass_g  (n = %llu, residual sd %.1f counts)\n",
            line.intercept, line.slope, (unsigned long long)line.count, line.resid_sd);
-    printf("slope standard error %.3g g/count, R^2 %.8f\n", line.slope_se, line.r_squared);
+    printf("slope standard error %.3g counts/g, R^2 %.8f\n", line.slope_se, line.r_squared);
 
-    if (report("prediction", pf_fitted_line_prediction(&line, new_raw, 1, 0.95, &mass)))
+    /* One new reading (replicates 1, unit weight), 95 % level. */
+    if (report("invert", pf_fitted_line_invert(&line, new_raw, 1, 1.0, 0.95, &mass))) return 1;
+    if (mass.set_kind == PF_SET_BOUNDED) {
+        printf("raw %.0f counts -> %.2f g, 95%% interval [%.2f, %.2f] g\n", new_raw, mass.x,
+               mass.set_lower, mass.set_upper);
+    } else {
+        printf("raw %.0f counts -> %.2f g, slope not significant: interval unbounded\n",
+               new_raw, mass.x);
+    }
+    if (report("limits", pf_fitted_line_decision_limits(&line, 0.05, 0.05, 1, 1.0, &lim)))
         return 1;
-    printf("raw %.0f counts -> %.2f g, 95%% prediction interval [%.2f, %.2f] g\n", new_raw,
-           mass.estimate, mass.lower, mass.upper);
+    printf("decision limit %.2f g, detection limit %.2f g (alpha = beta = 0.05)\n",
+           lim.x_critical, lim.x_detection);
     /* No free: the handle lives in cal_storage. */
     return 0;
 }

@@ -27,6 +27,50 @@
 #include <stdlib.h>
 
 /*
+ `pf_inverse.set_kind`: the Fieller set is the interval
+ [`set_lower`, `set_upper`] (the slope is significant).
+ */
+#define PF_SET_BOUNDED 0
+
+/*
+ `pf_inverse.set_kind`: the set is (-infinity, `set_lower`] united with
+ [`set_upper`, +infinity) (the slope is not significant; one end may be
+ infinite).
+ */
+#define PF_SET_TWO_HALF_LINES 1
+
+/*
+ `pf_inverse.set_kind`: every x is consistent with the reading;
+ `set_lower` is -infinity and `set_upper` +infinity.
+ */
+#define PF_SET_WHOLE_LINE 2
+
+/*
+ `pf_fitted_line_limits` sigma source: the residual standard deviation.
+ */
+#define PF_SIGMA_RESIDUAL_SD 0
+
+/*
+ Sigma source: the standard error of the intercept.
+ */
+#define PF_SIGMA_INTERCEPT_SE 1
+
+/*
+ Sigma source: the `sigma` argument (e.g. the SD of blank responses).
+ */
+#define PF_SIGMA_GIVEN 2
+
+/*
+ Maximum number of distinct levels a `pf_levels` store holds.
+ */
+#define PF_LEVELS_CAPACITY 32
+
+/*
+ Size in 8-byte words of `pf_levels_storage`.
+ */
+#define PF_LEVELS_STORAGE_WORDS 176
+
+/*
  `pf_line_fit` option bit: fit `y = b*x` (no intercept); R^2 is then
  uncentred.
  */
@@ -111,6 +155,17 @@
  this macro at start-up when linking dynamically.
  */
 #define PF_ABI_VERSION 1
+
+/*
+ A store of replicate readings per nominal x level (opaque), up to
+ `PF_LEVELS_CAPACITY` levels, for the lack-of-fit test. Push the same
+ pairs into it as into the line accumulator. Create with `pf_levels_new`
+ or `pf_levels_init_in` (no heap).
+
+ Thread-safety: `const pf_levels *` functions only read; others need
+ exclusive access.
+ */
+typedef struct pf_levels pf_levels;
 
 /*
  A line accumulator (opaque). Create it with `pf_line_new` (library
@@ -299,6 +354,208 @@ typedef struct {
 } pf_fitted_line;
 
 /*
+ Inverse prediction of one reading (or the mean of replicate readings)
+ through a fitted line: the x that produced it, with its standard error,
+ the exact Fieller confidence set and the symmetric approximate interval.
+ Infinite ends appear only in unbounded Fieller sets; nothing is NaN.
+ */
+typedef struct {
+    /*
+     The calibrated value x0 = (reading - intercept) / slope.
+     */
+    double x;
+    /*
+     Its delta-method standard error.
+     */
+    double std_error;
+    /*
+     Confidence level used.
+     */
+    double level;
+    /*
+     The t (or normal) quantile used.
+     */
+    double critical_value;
+    /*
+     `g = t^2 s^2 / (b^2 Sxx)`: the set is bounded exactly when g < 1.
+     */
+    double g;
+    /*
+     One of `PF_SET_BOUNDED`, `PF_SET_TWO_HALF_LINES`, `PF_SET_WHOLE_LINE`.
+     */
+    uint32_t set_kind;
+    /*
+     Lower end of the bounded set, or upper end of the lower half-line.
+     */
+    double set_lower;
+    /*
+     Upper end of the bounded set, or lower end of the upper half-line.
+     */
+    double set_upper;
+    /*
+     Lower end of the approximate interval `x - t * std_error`.
+     */
+    double approx_lower;
+    /*
+     Upper end of the approximate interval `x + t * std_error`.
+     */
+    double approx_upper;
+} pf_inverse;
+
+/*
+ Detection and quantitation limits `3.3 sigma / |slope|` and
+ `10 sigma / |slope|`, in x units.
+ */
+typedef struct {
+    /*
+     The sigma used, in y units.
+     */
+    double sigma;
+    /*
+     The slope used.
+     */
+    double slope;
+    /*
+     Detection limit.
+     */
+    double detection;
+    /*
+     Quantitation limit.
+     */
+    double quantitation;
+} pf_limits;
+
+/*
+ Decision level and limits from the prediction band (Hubaux and Vos).
+ */
+typedef struct {
+    /*
+     Probability of a false "detected" for a blank.
+     */
+    double alpha;
+    /*
+     Probability of a false "not detected" at the detection limit.
+     */
+    double beta;
+    /*
+     Decision level in y units.
+     */
+    double y_critical;
+    /*
+     Decision limit in x units.
+     */
+    double x_critical;
+    /*
+     Detection limit in x units.
+     */
+    double x_detection;
+} pf_decision_limits;
+
+/*
+ The straight line against a quadratic from the same (full-tier) moments
+ (Mandel's test value).
+ */
+typedef struct {
+    /*
+     Readings (effective count under forgetting).
+     */
+    double count;
+    /*
+     Residual sum of squares of the line.
+     */
+    double line_resid_ss;
+    /*
+     Residual sum of squares of the quadratic.
+     */
+    double quadratic_resid_ss;
+    /*
+     Residual SD of the line.
+     */
+    double line_resid_sd;
+    /*
+     Residual SD of the quadratic.
+     */
+    double quadratic_resid_sd;
+    /*
+     Coefficient of x^2 in the quadratic.
+     */
+    double curvature;
+    /*
+     Its standard error.
+     */
+    double curvature_se;
+    /*
+     Drop in residual sum of squares from line to quadratic.
+     */
+    double ss_drop;
+    /*
+     Test value `ss_drop / quadratic_resid_sd^2` on (1, count - 3)
+     degrees of freedom.
+     */
+    double test_value;
+    /*
+     Upper-tail p value of the test value.
+     */
+    double p_value;
+} pf_quadratic_check;
+
+/*
+ Size and alignment, in bytes, of caller storage for an object.
+ */
+typedef struct {
+    /*
+     Bytes needed.
+     */
+    size_t size;
+    /*
+     Required alignment of the first byte (a power of two).
+     */
+    size_t align;
+} pf_layout;
+
+/*
+ Lack-of-fit F test of a line against replicate levels.
+ */
+typedef struct {
+    /*
+     Readings.
+     */
+    uint64_t count;
+    /*
+     Distinct levels.
+     */
+    uint64_t levels;
+    /*
+     Model parameters (2, or 1 through the origin).
+     */
+    uint64_t params;
+    /*
+     Lack-of-fit sum of squares.
+     */
+    double lack_ss;
+    /*
+     Its degrees of freedom (levels - params).
+     */
+    uint64_t lack_df;
+    /*
+     Pure-error sum of squares.
+     */
+    double pure_ss;
+    /*
+     Its degrees of freedom (count - levels).
+     */
+    uint64_t pure_df;
+    /*
+     F statistic (+infinity when the pure error is exactly zero).
+     */
+    double f_stat;
+    /*
+     Upper-tail p value of the F statistic.
+     */
+    double f_p;
+} pf_lack_of_fit;
+
+/*
  A two-sided interval around an estimate.
  */
 typedef struct {
@@ -357,20 +614,6 @@ typedef struct {
      */
     double f_p;
 } pf_anova;
-
-/*
- Size and alignment, in bytes, of caller storage for an object.
- */
-typedef struct {
-    /*
-     Bytes needed.
-     */
-    size_t size;
-    /*
-     Required alignment of the first byte (a power of two).
-     */
-    size_t align;
-} pf_layout;
 
 /*
  The accumulated moments as plain numbers (pending pairs included).
@@ -549,6 +792,17 @@ typedef struct {
 } pf_line_full_storage;
 
 /*
+ Static or stack storage for a `pf_levels` store, for
+ `pf_levels_init_in`. Contents private; its size is part of the ABI.
+ */
+typedef struct {
+    /*
+     Private.
+     */
+    uint64_t _private[PF_LEVELS_STORAGE_WORDS];
+} pf_levels_storage;
+
+/*
  Success.
  */
 #define PF_OK 0
@@ -636,6 +890,48 @@ typedef struct {
 #define PF_ERR_MODEL_INVALID_STORAGE 28
 
 /*
+ Calibration: a polynomial needs 2 to 9 coefficients.
+ */
+#define PF_ERR_COEFFICIENT_COUNT 30
+
+/*
+ Calibration: the calibrated range must satisfy lower < upper, both
+ finite.
+ */
+#define PF_ERR_INVALID_RANGE 31
+
+/*
+ Calibration: an uncertainty (or sigma) is negative or not finite.
+ */
+#define PF_ERR_INVALID_UNCERTAINTY 32
+
+/*
+ Calibration: a variance function cannot be evaluated at a point.
+ */
+#define PF_ERR_VARIANCE_UNDEFINED 33
+
+/*
+ Calibration: the level store is full (`PF_LEVELS_CAPACITY` levels).
+ */
+#define PF_ERR_LEVEL_CAPACITY 34
+
+/*
+ Calibration: the fit and the level store hold different numbers of
+ readings.
+ */
+#define PF_ERR_COUNT_MISMATCH 35
+
+/*
+ Calibration: degrees of freedom must be positive.
+ */
+#define PF_ERR_INVALID_DOF 36
+
+/*
+ Calibration: the quantity needs an intercept; the line has none.
+ */
+#define PF_ERR_NO_INTERCEPT 37
+
+/*
  A required pointer argument is NULL.
  */
 #define PF_ERR_NULL_POINTER 60
@@ -693,6 +989,46 @@ typedef struct {
 #define PF_ERR_MODEL_OVERFLOW 122
 
 /*
+ Calibration: the slope is exactly zero; nothing can be inverted.
+ */
+#define PF_ERR_ZERO_SLOPE 130
+
+/*
+ Calibration: the slope is not significant at the level asked for.
+ */
+#define PF_ERR_SLOPE_NOT_SIGNIFICANT 131
+
+/*
+ Calibration: no root of the calibration function in the range.
+ */
+#define PF_ERR_NO_ROOT_IN_RANGE 132
+
+/*
+ Calibration: several roots in the range; the inverse is ambiguous.
+ */
+#define PF_ERR_SEVERAL_ROOTS 133
+
+/*
+ Calibration: no replicated level; pure error has no degrees of freedom.
+ */
+#define PF_ERR_NO_REPLICATES 134
+
+/*
+ Calibration: too few distinct levels for the model.
+ */
+#define PF_ERR_TOO_FEW_LEVELS 135
+
+/*
+ Calibration: x values do not support a quadratic term.
+ */
+#define PF_ERR_NO_CURVATURE_SPREAD 136
+
+/*
+ Calibration: the residual variance is zero where a ratio is needed.
+ */
+#define PF_ERR_ZERO_RESIDUAL 137
+
+/*
  The library could not allocate memory for a new handle (use caller
  storage with `_init_in` to avoid the heap).
  */
@@ -727,6 +1063,218 @@ typedef struct {
 #ifdef __cplusplus
 extern "C" {
 #endif // __cplusplus
+
+/*
+ Inverse prediction: the x that produced `reading` (the mean of
+ `replicates` readings, each of calibration weight `weight`; use 1 and
+ 1.0 for a single unweighted reading), with its standard error, the exact
+ Fieller set and the approximate interval at `level`, stored in `*out`.
+
+ Errors: `PF_ERR_NULL_POINTER`, `PF_ERR_NON_FINITE`,
+ `PF_ERR_INVALID_COUNT` (replicates 0), `PF_ERR_INVALID_WEIGHT`,
+ `PF_ERR_INVALID_LEVEL`, `PF_ERR_ZERO_SLOPE`, `PF_ERR_OVERFLOW`. Reads
+ `*fit` only; thread-safe.
+
+ # Safety
+ `fit` NULL or valid for reading; `out` NULL or valid for one
+ `pf_inverse`.
+ */
+pf_status pf_fitted_line_invert(const pf_fitted_line *fit,
+                                double reading,
+                                uint32_t replicates,
+                                double weight,
+                                double level,
+                                pf_inverse *out);
+
+/*
+ The calibrated value of one reading `y0` whose own standard uncertainty
+ `u_y` (>= 0, y units) is known, and its standard uncertainty from `u_y`
+ and the coefficient covariance; stored in `*x_out` and `*u_out`.
+
+ Errors: `PF_ERR_NULL_POINTER` (any pointer), `PF_ERR_NON_FINITE`,
+ `PF_ERR_INVALID_UNCERTAINTY`, `PF_ERR_ZERO_SLOPE`, `PF_ERR_OVERFLOW`.
+ Reads `*fit` only; thread-safe.
+
+ # Safety
+ `fit` NULL or valid for reading; outputs NULL or valid for one double.
+ */
+pf_status pf_fitted_line_calibrated_value(const pf_fitted_line *fit,
+                                          double y0,
+                                          double u_y,
+                                          double *x_out,
+                                          double *u_out);
+
+/*
+ Detection and quantitation limits `3.3 sigma/|slope|` and
+ `10 sigma/|slope|`, with sigma from `source` (`PF_SIGMA_*`; `sigma` is
+ used only with `PF_SIGMA_GIVEN`), stored in `*out`.
+
+ Errors: `PF_ERR_NULL_POINTER`, `PF_ERR_BAD_ARGUMENT` (unknown source),
+ `PF_ERR_INVALID_UNCERTAINTY` (given sigma negative or not finite),
+ `PF_ERR_NO_INTERCEPT`, `PF_ERR_ZERO_SLOPE`. Reads `*fit` only;
+ thread-safe.
+
+ # Safety
+ `fit` NULL or valid for reading; `out` NULL or valid for one
+ `pf_limits`.
+ */
+pf_status pf_fitted_line_limits(const pf_fitted_line *fit,
+                                uint32_t source,
+                                double sigma,
+                                pf_limits *out);
+
+/*
+ Decision level, decision limit and detection limit from the prediction
+ band for a future result that is the mean of `replicates` readings of
+ calibration weight `weight`, with one-sided error probabilities `alpha`
+ and `beta` in (0, 0.5); stored in `*out`.
+
+ Errors: `PF_ERR_NULL_POINTER`, `PF_ERR_INVALID_LEVEL`,
+ `PF_ERR_INVALID_COUNT`, `PF_ERR_INVALID_WEIGHT`, `PF_ERR_ZERO_SLOPE`,
+ `PF_ERR_SLOPE_NOT_SIGNIFICANT`, `PF_ERR_OVERFLOW`. Reads `*fit` only;
+ thread-safe.
+
+ # Safety
+ `fit` NULL or valid for reading; `out` NULL or valid for one
+ `pf_decision_limits`.
+ */
+pf_status pf_fitted_line_decision_limits(const pf_fitted_line *fit,
+                                         double alpha,
+                                         double beta,
+                                         uint32_t replicates,
+                                         double weight,
+                                         pf_decision_limits *out);
+
+/*
+ Fits the line and a quadratic from a full-tier accumulator's moments and
+ compares them (Mandel's test), stored in `*out`.
+
+ Errors: `PF_ERR_NULL_POINTER`, `PF_ERR_NEEDS_FULL_TIER`,
+ `PF_ERR_TOO_FEW_POINTS` (below 4), `PF_ERR_NO_SPREAD`,
+ `PF_ERR_NO_CURVATURE_SPREAD`, `PF_ERR_ZERO_RESIDUAL`, `PF_ERR_OVERFLOW`,
+ handle errors. Read-only.
+
+ # Safety
+ `line` NULL or a live handle; `out` NULL or valid for one
+ `pf_quadratic_check`.
+ */
+pf_status pf_line_quadratic_check(const pf_line *line, pf_quadratic_check *out);
+
+/*
+ Size and alignment of caller storage for a `pf_levels` store.
+
+ Errors: `PF_ERR_NULL_POINTER`. Thread-safe.
+
+ # Safety
+ `out` NULL or valid for one `pf_layout`.
+ */
+pf_status pf_levels_layout(pf_layout *out);
+
+/*
+ Builds an empty level store in caller storage `buf` of `len` bytes (no
+ heap; `pf_levels_storage` fits) and stores its handle in `*out`. Never
+ pass the handle to `pf_levels_free`; re-initialise to reuse.
+
+ Errors: `PF_ERR_NULL_POINTER` (even with `len` 0),
+ `PF_ERR_BUFFER_TOO_SMALL`, `PF_ERR_MISALIGNED`.
+
+ # Safety
+ `buf` NULL or valid for writing `len` bytes; `out` NULL or valid for one
+ pointer.
+ */
+pf_status pf_levels_init_in(void *buf, size_t len, pf_levels **out);
+
+/*
+ Allocates an empty level store; release it with `pf_levels_free`.
+
+ Errors: `PF_ERR_NULL_POINTER`, `PF_ERR_OUT_OF_MEMORY`.
+
+ # Safety
+ `out` NULL or valid for writing one pointer.
+ */
+pf_status pf_levels_new(pf_levels **out);
+
+/*
+ Releases a store from `pf_levels_new`; NULL is a no-op (`PF_OK`).
+
+ Errors: `PF_ERR_IN_PLACE_HANDLE`, `PF_ERR_BAD_HANDLE`.
+
+ # Safety
+ `l` NULL or a handle from this library, not used concurrently, not
+ freed twice.
+ */
+pf_status pf_levels_free(pf_levels *l);
+
+/*
+ Adds one reading `y` at nominal level `x` (unit weight).
+
+ Errors: `PF_ERR_NULL_POINTER`, `PF_ERR_NON_FINITE`,
+ `PF_ERR_LEVEL_CAPACITY` (a new level beyond `PF_LEVELS_CAPACITY`),
+ handle errors. Unchanged on error. Needs exclusive access.
+
+ # Safety
+ `l` NULL or a live handle from this library.
+ */
+pf_status pf_levels_push(pf_levels *l, double x, double y);
+
+/*
+ Adds one reading with weight `w > 0`.
+
+ Errors: as `pf_levels_push`, plus `PF_ERR_INVALID_WEIGHT`.
+
+ # Safety
+ `l` NULL or a live handle from this library.
+ */
+pf_status pf_levels_push_weighted(pf_levels *l, double x, double y, double w);
+
+/*
+ Adds `len` readings `(xs[i], ys[i])`; nothing is added on error.
+
+ Errors: `PF_ERR_NULL_POINTER` (even with `len` 0), `PF_ERR_MISALIGNED`,
+ `PF_ERR_BAD_ARGUMENT`, `PF_ERR_NON_FINITE`, `PF_ERR_LEVEL_CAPACITY`,
+ handle errors. Needs exclusive access.
+
+ # Safety
+ `l` NULL or a live handle; arrays NULL or valid for `len` doubles.
+ */
+pf_status pf_levels_extend(pf_levels *l, const double *xs, const double *ys, size_t len);
+
+/*
+ Merges `src` into `dst` (`src` may be `dst`).
+
+ Errors: `PF_ERR_NULL_POINTER`, `PF_ERR_LEVEL_CAPACITY`, handle errors.
+ `dst` is unchanged on error. Needs exclusive access to `dst`.
+
+ # Safety
+ `dst`, `src` NULL or live handles from this library.
+ */
+pf_status pf_levels_merge(pf_levels *dst, const pf_levels *src);
+
+/*
+ Stores the number of readings in `*count_out` and of distinct levels in
+ `*levels_out`.
+
+ Errors: `PF_ERR_NULL_POINTER` (any pointer), handle errors. Read-only.
+
+ # Safety
+ `l` NULL or a live handle; outputs NULL or valid for one value each.
+ */
+pf_status pf_levels_count(const pf_levels *l, uint64_t *count_out, size_t *levels_out);
+
+/*
+ Lack-of-fit F test of `fit` (fitted to the same readings) against the
+ replicate levels, stored in `*out`.
+
+ Errors: `PF_ERR_NULL_POINTER`, `PF_ERR_COUNT_MISMATCH` (the fit holds a
+ different number of readings), `PF_ERR_TOO_FEW_LEVELS`,
+ `PF_ERR_NO_REPLICATES`, `PF_ERR_ZERO_RESIDUAL`, handle errors.
+ Read-only.
+
+ # Safety
+ `l` NULL or a live handle; `fit` NULL or valid for reading; `out` NULL
+ or valid for one `pf_lack_of_fit`.
+ */
+pf_status pf_levels_lack_of_fit(const pf_levels *l, const pf_fitted_line *fit, pf_lack_of_fit *out);
 
 /*
  The fitted value `yhat(x)` of the line at `x`, stored in `*out`.

@@ -201,7 +201,7 @@ impl pf_fitted_line {
 /// # Safety
 /// `p` is non-NULL and valid for reading one `pf_fitted_line` (maybe
 /// unaligned).
-unsafe fn to_fit(p: *const pf_fitted_line) -> LineFit {
+pub(crate) unsafe fn to_fit(p: *const pf_fitted_line) -> LineFit {
     let flag = |b: *const bool| {
         // SAFETY: `b` points into the struct `p` refers to; one byte.
         unsafe { b.cast::<u8>().read_unaligned() != 0 }

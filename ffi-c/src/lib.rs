@@ -20,12 +20,14 @@
 )]
 
 mod boundary;
+pub mod calib;
 pub mod fit;
 pub mod line;
 pub mod model;
 pub mod status;
 pub mod version;
 
+pub use calib::{pf_inverse, pf_levels};
 pub use fit::{pf_anova, pf_fitted_line, pf_interval};
 pub use line::{pf_layout, pf_line, pf_moments};
 pub use model::{pf_model, pf_model_info};

@@ -666,6 +666,24 @@ pub unsafe extern "C" fn pf_line_moments(line: *const pf_line, out: *mut pf_mome
     }
 }
 
+/// Runs a read-only body on a full-tier line handle
+/// (`PF_ERR_NEEDS_FULL_TIER` for a lean one).
+///
+/// # Safety
+/// As [`with_ref`].
+pub(crate) unsafe fn with_full(
+    line: *const pf_line,
+    f: impl FnOnce(&FullMoments) -> pf_status,
+) -> pf_status {
+    // SAFETY: forwarded contract.
+    unsafe {
+        with_ref(line, |a| match a {
+            AccRef::Lean(_) => PF_ERR_NEEDS_FULL_TIER,
+            AccRef::Full(acc) => f(acc),
+        })
+    }
+}
+
 /// Range query shared by `pf_line_x_range` and `pf_line_y_range`.
 ///
 /// # Safety

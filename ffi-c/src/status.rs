@@ -50,6 +50,24 @@ pub const PF_ERR_MODEL_REPLICATES: pf_status = 26;
 pub const PF_ERR_MODEL_STORAGE_TOO_SMALL: pf_status = 27;
 /// Model: the storage does not hold a valid model state.
 pub const PF_ERR_MODEL_INVALID_STORAGE: pf_status = 28;
+/// Calibration: a polynomial needs 2 to 9 coefficients.
+pub const PF_ERR_COEFFICIENT_COUNT: pf_status = 30;
+/// Calibration: the calibrated range must satisfy lower < upper, both
+/// finite.
+pub const PF_ERR_INVALID_RANGE: pf_status = 31;
+/// Calibration: an uncertainty (or sigma) is negative or not finite.
+pub const PF_ERR_INVALID_UNCERTAINTY: pf_status = 32;
+/// Calibration: a variance function cannot be evaluated at a point.
+pub const PF_ERR_VARIANCE_UNDEFINED: pf_status = 33;
+/// Calibration: the level store is full (`PF_LEVELS_CAPACITY` levels).
+pub const PF_ERR_LEVEL_CAPACITY: pf_status = 34;
+/// Calibration: the fit and the level store hold different numbers of
+/// readings.
+pub const PF_ERR_COUNT_MISMATCH: pf_status = 35;
+/// Calibration: degrees of freedom must be positive.
+pub const PF_ERR_INVALID_DOF: pf_status = 36;
+/// Calibration: the quantity needs an intercept; the line has none.
+pub const PF_ERR_NO_INTERCEPT: pf_status = 37;
 /// A required pointer argument is NULL.
 pub const PF_ERR_NULL_POINTER: pf_status = 60;
 /// Caller storage or an output array is too small.
@@ -74,6 +92,22 @@ pub const PF_ERR_RANK_DEFICIENT: pf_status = 120;
 pub const PF_ERR_TOO_FEW_ROWS: pf_status = 121;
 /// Model: the state would overflow (values too large in magnitude).
 pub const PF_ERR_MODEL_OVERFLOW: pf_status = 122;
+/// Calibration: the slope is exactly zero; nothing can be inverted.
+pub const PF_ERR_ZERO_SLOPE: pf_status = 130;
+/// Calibration: the slope is not significant at the level asked for.
+pub const PF_ERR_SLOPE_NOT_SIGNIFICANT: pf_status = 131;
+/// Calibration: no root of the calibration function in the range.
+pub const PF_ERR_NO_ROOT_IN_RANGE: pf_status = 132;
+/// Calibration: several roots in the range; the inverse is ambiguous.
+pub const PF_ERR_SEVERAL_ROOTS: pf_status = 133;
+/// Calibration: no replicated level; pure error has no degrees of freedom.
+pub const PF_ERR_NO_REPLICATES: pf_status = 134;
+/// Calibration: too few distinct levels for the model.
+pub const PF_ERR_TOO_FEW_LEVELS: pf_status = 135;
+/// Calibration: x values do not support a quadratic term.
+pub const PF_ERR_NO_CURVATURE_SPREAD: pf_status = 136;
+/// Calibration: the residual variance is zero where a ratio is needed.
+pub const PF_ERR_ZERO_RESIDUAL: pf_status = 137;
 /// The library could not allocate memory for a new handle (use caller
 /// storage with `_init_in` to avoid the heap).
 pub const PF_ERR_OUT_OF_MEMORY: pf_status = 68;
@@ -117,6 +151,22 @@ fn message(status: u32) -> &'static str {
         PF_ERR_RANK_DEFICIENT => "model: rank deficient design\0",
         PF_ERR_TOO_FEW_ROWS => "model: too few rows\0",
         PF_ERR_MODEL_OVERFLOW => "model: state overflow\0",
+        PF_ERR_COEFFICIENT_COUNT => "polynomial needs 2 to 9 coefficients\0",
+        PF_ERR_INVALID_RANGE => "calibrated range must satisfy lower < upper\0",
+        PF_ERR_INVALID_UNCERTAINTY => "uncertainty must be finite and >= 0\0",
+        PF_ERR_VARIANCE_UNDEFINED => "variance function undefined at a point\0",
+        PF_ERR_LEVEL_CAPACITY => "level store full\0",
+        PF_ERR_COUNT_MISMATCH => "fit and level store hold different counts\0",
+        PF_ERR_INVALID_DOF => "degrees of freedom must be positive\0",
+        PF_ERR_NO_INTERCEPT => "the line has no intercept\0",
+        PF_ERR_ZERO_SLOPE => "slope is zero; cannot invert\0",
+        PF_ERR_SLOPE_NOT_SIGNIFICANT => "slope not significant; interval unbounded\0",
+        PF_ERR_NO_ROOT_IN_RANGE => "no root in the calibrated range\0",
+        PF_ERR_SEVERAL_ROOTS => "several roots in the calibrated range\0",
+        PF_ERR_NO_REPLICATES => "no replicated level\0",
+        PF_ERR_TOO_FEW_LEVELS => "too few levels for the model\0",
+        PF_ERR_NO_CURVATURE_SPREAD => "x values do not support a quadratic term\0",
+        PF_ERR_ZERO_RESIDUAL => "residual variance is zero\0",
         PF_ERR_NULL_POINTER => "null pointer argument\0",
         PF_ERR_BUFFER_TOO_SMALL => "buffer too small\0",
         PF_ERR_MISALIGNED => "buffer misaligned\0",

@@ -9,6 +9,7 @@
 // A helper program: failing loudly on an unexpected error is what we want.
 #![allow(clippy::unwrap_used)]
 
+use pf_core::calib::{FiellerSet, FixedLevels, Reading, SigmaSource};
 use pf_core::line::{Anova, Interval};
 use pf_core::model::{InterceptMode, ModelFit, ModelFitOptions, ModelMoments};
 use pf_core::{FitOptions, LineFit, PairMoments, Tier, WeightMeaning};
@@ -325,6 +326,97 @@ fn model_scenarios(o: &mut Out, d: &[[f64; 3]]) {
     o.model_fit("model.forget", &g.fit(&detect).unwrap());
 }
 
+/// Calibration scenarios, in the order `tests/c/test_line.c` runs them.
+fn calib_scenarios(o: &mut Out, d: &[[f64; 3]]) {
+    let mut acc = pf_core::LeanMoments::new();
+    for p in d {
+        acc.push(p[0], p[1]).unwrap();
+    }
+    let f = acc.fit().unwrap();
+    let x0 = f.mean_x + 37.5;
+    let y0 = f.fitted(x0) + 0.3;
+    let i = f
+        .invert_interval(&Reading::mean_of(y0, 3).with_weight(1.0), 0.95)
+        .unwrap();
+    let (kind, lo, hi) = match i.set {
+        FiellerSet::Bounded { lower, upper } => (0, lower, upper),
+        FiellerSet::TwoHalfLines { below, above } => (1, below, above),
+        FiellerSet::WholeLine => (2, f64::NEG_INFINITY, f64::INFINITY),
+    };
+    o.f("calib.inv.x", i.estimate.x);
+    o.f("calib.inv.std_error", i.estimate.se);
+    o.f("calib.inv.level", i.level);
+    o.f("calib.inv.critical_value", i.t);
+    o.f("calib.inv.g", i.g);
+    o.n("calib.inv.set_kind", kind);
+    o.f("calib.inv.set_lower", lo);
+    o.f("calib.inv.set_upper", hi);
+    o.f("calib.inv.approx_lower", i.approx_lower);
+    o.f("calib.inv.approx_upper", i.approx_upper);
+    let c = f.calibrated_value(y0, 0.2).unwrap();
+    o.f("calib.value.x", c.x);
+    o.f("calib.value.u", c.u);
+    for (k, src) in [
+        ("resid", SigmaSource::ResidualSd),
+        ("icept", SigmaSource::InterceptSe),
+        ("given", SigmaSource::Given(0.05)),
+    ] {
+        let l = f.limits_from_sigma(src).unwrap();
+        o.f(&format!("calib.limits.{k}.sigma"), l.sigma);
+        o.f(&format!("calib.limits.{k}.slope"), l.slope);
+        o.f(&format!("calib.limits.{k}.detection"), l.detection);
+        o.f(&format!("calib.limits.{k}.quantitation"), l.quantitation);
+    }
+    let dl = f.decision_limits(0.05, 0.05, 1, 1.0).unwrap();
+    for (k, v) in [
+        ("alpha", dl.alpha),
+        ("beta", dl.beta),
+        ("y_critical", dl.y_critical),
+        ("x_critical", dl.x_critical),
+        ("x_detection", dl.x_detection),
+    ] {
+        o.f(&format!("calib.decision.{k}"), v);
+    }
+    let mut full = pf_core::FullMoments::new();
+    for p in d {
+        full.push(p[0], p[1]).unwrap();
+    }
+    let q = full.quadratic_check().unwrap();
+    for (k, v) in [
+        ("count", q.count),
+        ("line_resid_ss", q.sse_line),
+        ("quadratic_resid_ss", q.sse_quadratic),
+        ("line_resid_sd", q.sd_line),
+        ("quadratic_resid_sd", q.sd_quadratic),
+        ("curvature", q.curvature),
+        ("curvature_se", q.curvature_se),
+        ("ss_drop", q.ds2),
+        ("test_value", q.test_value),
+        ("p_value", q.p_value()),
+    ] {
+        o.f(&format!("calib.quad.{k}"), v);
+    }
+    // Replicate levels: 8 nominal x values, 8 readings each (invented).
+    let mut lv = FixedLevels::<32>::new();
+    let mut la = pf_core::LeanMoments::new();
+    for (i, p) in d.iter().take(64).enumerate() {
+        let x = 1000.0 + 10.0 * (i % 8) as f64;
+        let y = 3.7 - 0.42 * x + (p[1] - (3.7 - 0.42 * p[0]));
+        lv.push(x, y).unwrap();
+        la.push(x, y).unwrap();
+    }
+    let r = lv.lack_of_fit_line(&la.fit().unwrap()).unwrap();
+    o.n("calib.lof.count", r.count);
+    o.n("calib.lof.levels", r.levels as u64);
+    o.n("calib.lof.params", r.params as u64);
+    o.f("calib.lof.lack_ss", r.ss_lack_of_fit);
+    o.n("calib.lof.lack_df", r.df_lack_of_fit);
+    o.f("calib.lof.pure_ss", r.ss_pure_error);
+    o.n("calib.lof.pure_df", r.df_pure_error);
+    o.f("calib.lof.f_stat", r.f_stat);
+    o.f("calib.lof.f_p", r.p_value());
+}
+
 fn main() {
     let d = data(1000);
     let mut o = Out(Vec::new());
@@ -341,6 +433,7 @@ fn main() {
     o.f("full.y_range.min", lo);
     o.f("full.y_range.max", hi);
     model_scenarios(&mut o, &d);
+    calib_scenarios(&mut o, &d);
 
     println!("data {}", d.len());
     for p in &d {

@@ -535,6 +535,122 @@ static void model_scenarios(const double *xs, const double *ys, const double *ws
     free(rows);
 }
 
+/* ---- calibration parity ---- */
+
+static void calib_scenarios(const double *xs, const double *ys, size_t n) {
+    pf_line *l = NULL, *full = NULL, *la = NULL;
+    pf_levels *lv = NULL;
+    pf_fitted_line f, fl;
+    pf_inverse inv;
+    pf_limits lim;
+    pf_decision_limits dl;
+    pf_quadratic_check q;
+    pf_lack_of_fit r;
+    double x0, y0, cx = 0, cu = 0;
+    size_t i;
+    static const uint32_t sources[3] = {PF_SIGMA_RESIDUAL_SD, PF_SIGMA_INTERCEPT_SE, PF_SIGMA_GIVEN};
+    static const char *const source_names[3] = {"calib.limits.resid", "calib.limits.icept",
+                                                 "calib.limits.given"};
+
+    CHECK_STATUS(pf_line_new(PF_TIER_LEAN, &l), PF_OK);
+    CHECK_STATUS(pf_line_new(PF_TIER_FULL, &full), PF_OK);
+    for (i = 0; i < n; i++) {
+        CHECK_STATUS(pf_line_push(l, xs[i], ys[i]), PF_OK);
+        CHECK_STATUS(pf_line_push(full, xs[i], ys[i]), PF_OK);
+    }
+    CHECK_STATUS(pf_line_fit(l, 0, &f), PF_OK);
+    x0 = f.mean_x + 37.5;
+    CHECK_STATUS(pf_fitted_line_value(&f, x0, &y0), PF_OK);
+    y0 += 0.3;
+    CHECK_STATUS(pf_fitted_line_invert(&f, y0, 3, 1.0, 0.95, &inv), PF_OK);
+    pf("calib.inv", "x", inv.x);
+    pf("calib.inv", "std_error", inv.std_error);
+    pf("calib.inv", "level", inv.level);
+    pf("calib.inv", "critical_value", inv.critical_value);
+    pf("calib.inv", "g", inv.g);
+    pn("calib.inv", "set_kind", inv.set_kind);
+    pf("calib.inv", "set_lower", inv.set_lower);
+    pf("calib.inv", "set_upper", inv.set_upper);
+    pf("calib.inv", "approx_lower", inv.approx_lower);
+    pf("calib.inv", "approx_upper", inv.approx_upper);
+    CHECK(inv.set_kind == PF_SET_BOUNDED && inv.set_lower < inv.x && inv.x < inv.set_upper);
+    CHECK_STATUS(pf_fitted_line_calibrated_value(&f, y0, 0.2, &cx, &cu), PF_OK);
+    pf("calib.value", "x", cx);
+    pf("calib.value", "u", cu);
+    for (i = 0; i < 3; i++) {
+        CHECK_STATUS(pf_fitted_line_limits(&f, sources[i], 0.05, &lim), PF_OK);
+        pf(source_names[i], "sigma", lim.sigma);
+        pf(source_names[i], "slope", lim.slope);
+        pf(source_names[i], "detection", lim.detection);
+        pf(source_names[i], "quantitation", lim.quantitation);
+    }
+    CHECK_STATUS(pf_fitted_line_decision_limits(&f, 0.05, 0.05, 1, 1.0, &dl), PF_OK);
+    pf("calib.decision", "alpha", dl.alpha);
+    pf("calib.decision", "beta", dl.beta);
+    pf("calib.decision", "y_critical", dl.y_critical);
+    pf("calib.decision", "x_critical", dl.x_critical);
+    pf("calib.decision", "x_detection", dl.x_detection);
+    CHECK_STATUS(pf_line_quadratic_check(l, &q), PF_ERR_NEEDS_FULL_TIER);
+    CHECK_STATUS(pf_line_quadratic_check(full, &q), PF_OK);
+    pf("calib.quad", "count", q.count);
+    pf("calib.quad", "line_resid_ss", q.line_resid_ss);
+    pf("calib.quad", "quadratic_resid_ss", q.quadratic_resid_ss);
+    pf("calib.quad", "line_resid_sd", q.line_resid_sd);
+    pf("calib.quad", "quadratic_resid_sd", q.quadratic_resid_sd);
+    pf("calib.quad", "curvature", q.curvature);
+    pf("calib.quad", "curvature_se", q.curvature_se);
+    pf("calib.quad", "ss_drop", q.ss_drop);
+    pf("calib.quad", "test_value", q.test_value);
+    pf("calib.quad", "p_value", q.p_value);
+
+    {
+        static pf_levels_storage store;
+        uint64_t count = 0;
+        size_t levels = 0;
+        CHECK_STATUS(pf_levels_init_in(&store, sizeof store, &lv), PF_OK);
+        CHECK_STATUS(pf_line_new(PF_TIER_LEAN, &la), PF_OK);
+        for (i = 0; i < 64 && i < n; i++) {
+            double x = 1000.0 + 10.0 * (double)(i % 8);
+            double y = 3.7 - 0.42 * x + (ys[i] - (3.7 - 0.42 * xs[i]));
+            CHECK_STATUS(pf_levels_push(lv, x, y), PF_OK);
+            CHECK_STATUS(pf_line_push(la, x, y), PF_OK);
+        }
+        CHECK_STATUS(pf_levels_count(lv, &count, &levels), PF_OK);
+        CHECK(count == 64 && levels == 8);
+        CHECK_STATUS(pf_line_fit(la, 0, &fl), PF_OK);
+        CHECK_STATUS(pf_levels_lack_of_fit(lv, &f, &r), PF_ERR_COUNT_MISMATCH);
+        CHECK_STATUS(pf_levels_lack_of_fit(lv, &fl, &r), PF_OK);
+        pn("calib.lof", "count", r.count);
+        pn("calib.lof", "levels", r.levels);
+        pn("calib.lof", "params", r.params);
+        pf("calib.lof", "lack_ss", r.lack_ss);
+        pn("calib.lof", "lack_df", r.lack_df);
+        pf("calib.lof", "pure_ss", r.pure_ss);
+        pn("calib.lof", "pure_df", r.pure_df);
+        pf("calib.lof", "f_stat", r.f_stat);
+        pf("calib.lof", "f_p", r.f_p);
+        CHECK_STATUS(pf_levels_free(lv), PF_ERR_IN_PLACE_HANDLE);
+        /* Capacity: a 33rd distinct level is refused, store unchanged. */
+        {
+            pf_levels *big = NULL;
+            double k;
+            CHECK_STATUS(pf_levels_new(&big), PF_OK);
+            for (k = 0; k < PF_LEVELS_CAPACITY; k += 1.0)
+                CHECK_STATUS(pf_levels_push(big, k, 1.0), PF_OK);
+            CHECK_STATUS(pf_levels_push(big, 99.0, 1.0), PF_ERR_LEVEL_CAPACITY);
+            CHECK_STATUS(pf_levels_count(big, &count, &levels), PF_OK);
+            CHECK(levels == PF_LEVELS_CAPACITY && count == PF_LEVELS_CAPACITY);
+            CHECK_STATUS(pf_levels_merge(big, big), PF_OK);
+            CHECK_STATUS(pf_levels_count(big, &count, &levels), PF_OK);
+            CHECK(levels == PF_LEVELS_CAPACITY && count == 2 * PF_LEVELS_CAPACITY);
+            CHECK_STATUS(pf_levels_free(big), PF_OK);
+        }
+    }
+    CHECK_STATUS(pf_line_free(la), PF_OK);
+    CHECK_STATUS(pf_line_free(full), PF_OK);
+    CHECK_STATUS(pf_line_free(l), PF_OK);
+}
+
 static double from_bits(uint64_t b) {
     double v;
     memcpy(&v, &b, sizeof v);
@@ -602,6 +718,7 @@ static void test_parity(const char *path) {
     pf("full.y_range", "max", hi);
     CHECK_STATUS(pf_line_free(full), PF_OK);
     model_scenarios(xs, ys, ws, n);
+    calib_scenarios(xs, ys, n);
 
     if (next_expect != n_expect) {
         fprintf(stderr, "parity: %lu Rust values never computed in C\n",

@@ -143,6 +143,68 @@ int main(void) {
     EXPECT(pf_fitted_line_chi_square_p(&fit, NULL), NP);
     CHECK(d == 7.0);
 
+    /* ---- calibration ---- */
+    {
+        pf_inverse inv;
+        pf_limits lim;
+        pf_decision_limits dlim;
+        pf_quadratic_check qc;
+        pf_lack_of_fit lof;
+        pf_levels *lv = NULL, *lu = NULL;
+        uint64_t lraw[PF_LEVELS_STORAGE_WORDS];
+        size_t nl = 7;
+
+        EXPECT(pf_fitted_line_invert(NULL, 2.0, 1, 1.0, 0.95, &inv), NP);
+        EXPECT(pf_fitted_line_invert(&fit, 2.0, 1, 1.0, 0.95, NULL), NP);
+        EXPECT(pf_fitted_line_invert(&fit, 2.0, 0, 1.0, 0.95, &inv), PF_ERR_INVALID_COUNT);
+        EXPECT(pf_fitted_line_calibrated_value(NULL, 2.0, 0.1, &d, &e), NP);
+        EXPECT(pf_fitted_line_calibrated_value(&fit, 2.0, 0.1, NULL, &e), NP);
+        EXPECT(pf_fitted_line_calibrated_value(&fit, 2.0, 0.1, &d, NULL), NP);
+        EXPECT(pf_fitted_line_calibrated_value(&fit, 2.0, -0.1, &d, &e), PF_ERR_INVALID_UNCERTAINTY);
+        EXPECT(pf_fitted_line_limits(NULL, PF_SIGMA_RESIDUAL_SD, 0.0, &lim), NP);
+        EXPECT(pf_fitted_line_limits(&fit, PF_SIGMA_RESIDUAL_SD, 0.0, NULL), NP);
+        EXPECT(pf_fitted_line_limits(NULL, 9u, 0.0, &lim), NP);
+        EXPECT(pf_fitted_line_limits(&fit, 9u, 0.0, &lim), PF_ERR_BAD_ARGUMENT);
+        EXPECT(pf_fitted_line_decision_limits(NULL, 0.05, 0.05, 1, 1.0, &dlim), NP);
+        EXPECT(pf_fitted_line_decision_limits(&fit, 0.05, 0.05, 1, 1.0, NULL), NP);
+        EXPECT(pf_fitted_line_decision_limits(&fit, 0.5, 0.05, 1, 1.0, &dlim), PF_ERR_INVALID_LEVEL);
+        EXPECT(pf_line_quadratic_check(NULL, &qc), NP);
+        EXPECT(pf_line_quadratic_check(l, NULL), NP);
+
+        EXPECT(pf_levels_layout(NULL), NP);
+        EXPECT(pf_levels_init_in(NULL, sizeof lraw, &lu), NP);
+        EXPECT(pf_levels_init_in(NULL, 0, &lu), NP);
+        EXPECT(pf_levels_init_in(lraw, sizeof lraw, NULL), NP);
+        EXPECT(pf_levels_init_in(lraw, 0, &lu), PF_ERR_BUFFER_TOO_SMALL);
+        EXPECT(pf_levels_init_in((char *)(void *)lraw + 2, sizeof lraw - 2, &lu), PF_ERR_MISALIGNED);
+        EXPECT(pf_levels_new(NULL), NP);
+        CHECK(lu == NULL);
+        EXPECT(pf_levels_free(NULL), PF_OK);
+        EXPECT(pf_levels_free((pf_levels *)(void *)l), PF_ERR_BAD_HANDLE);
+        EXPECT(pf_levels_new(&lv), PF_OK);
+        EXPECT(pf_levels_push(NULL, 1.0, 1.0), NP);
+        EXPECT(pf_levels_push_weighted(NULL, 1.0, 1.0, 1.0), NP);
+        EXPECT(pf_levels_push_weighted(lv, 1.0, 1.0, 0.0), PF_ERR_INVALID_WEIGHT);
+        EXPECT(pf_levels_extend(NULL, xs, ys, 4), NP);
+        EXPECT(pf_levels_extend(lv, NULL, ys, 4), NP);
+        EXPECT(pf_levels_extend(lv, xs, NULL, 4), NP);
+        EXPECT(pf_levels_extend(lv, NULL, NULL, 0), NP);
+        EXPECT(pf_levels_extend(lv, xs, ys, SIZE_MAX), PF_ERR_BAD_ARGUMENT);
+        EXPECT(pf_levels_extend(lv, misaligned, ys, 1), PF_ERR_MISALIGNED);
+        EXPECT(pf_levels_merge(NULL, lv), NP);
+        EXPECT(pf_levels_merge(lv, NULL), NP);
+        EXPECT(pf_levels_count(NULL, &n, &nl), NP);
+        EXPECT(pf_levels_count(lv, NULL, &nl), NP);
+        EXPECT(pf_levels_count(lv, &n, NULL), NP);
+        EXPECT(pf_levels_lack_of_fit(NULL, &fit, &lof), NP);
+        EXPECT(pf_levels_lack_of_fit(lv, NULL, &lof), NP);
+        EXPECT(pf_levels_lack_of_fit(lv, &fit, NULL), NP);
+        EXPECT(pf_levels_count(lv, &n, &nl), PF_OK);
+        CHECK(n == 0 && nl == 0);
+        EXPECT(pf_levels_free(lv), PF_OK);
+        (void)lu;
+    }
+
     /* ---- model accumulator ---- */
     {
         pf_model *mm = NULL, *mu = NULL;
