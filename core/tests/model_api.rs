@@ -472,3 +472,63 @@ fn error_codes_and_messages_are_stable() {
     fn traits<T: Send + Sync + 'static + std::error::Error>() {}
     traits::<ModelError>();
 }
+
+#[test]
+fn power_rows_block_and_single_agree_and_reject_bad_input() {
+    // 1000 rows (lane path) of a cubic in x ∈ [2, 12): block vs row by row.
+    let xs: Vec<f64> = (0..1000).map(|i| 2.0 + i as f64 * 0.01).collect();
+    let ys: Vec<f64> = xs
+        .iter()
+        .enumerate()
+        .map(|(i, x)| 1.0 - 0.5 * x + 0.25 * x * x * x + ((i * 37) % 11) as f64 * 1e-3)
+        .collect();
+    let mut block = ModelMoments::new(4).unwrap();
+    block.extend_powers(&xs, &ys).unwrap();
+    let mut single = ModelMoments::new(4).unwrap();
+    for (x, y) in xs.iter().zip(&ys) {
+        single.push_powers(*x, *y, 1.0).unwrap();
+    }
+    let opts = ModelFitOptions::default();
+    let (a, b) = (block.fit(&opts).unwrap(), single.fit(&opts).unwrap());
+    assert!(a.has_intercept);
+    for j in 0..4 {
+        // Condition of this cubic design is ~1e4: agreement to ~1e-12.
+        assert!(
+            close(a.coefficients[j], b.coefficients[j], 1e-12),
+            "coef {j}"
+        );
+    }
+    let via_helper = poly_fit(&xs, &ys, 3).unwrap();
+    assert_eq!(via_helper.coefficients, a.coefficients);
+
+    let before = bits(block.storage());
+    let mut bad = xs.clone();
+    bad[700] = f64::NAN;
+    assert_eq!(
+        block.extend_powers(&bad, &ys),
+        Err(ModelError::NonFinite {
+            row: 700,
+            column: 0
+        })
+    );
+    assert_eq!(
+        block.extend_powers_weighted(&xs, &ys, &vec![-1.0; xs.len()]),
+        Err(ModelError::InvalidWeight { row: 0 })
+    );
+    assert_eq!(
+        block.extend_powers(&xs[..10], &ys),
+        Err(ModelError::DimensionMismatch {
+            expected: 1000,
+            found: 10
+        })
+    );
+    assert_eq!(
+        block.push_powers(1.0, f64::NAN, 1.0),
+        Err(ModelError::NonFinite { row: 0, column: 1 })
+    );
+    assert_eq!(
+        poly_fit(&xs, &ys, MAX_PARAMS),
+        Err(ModelError::InvalidParamCount { p: MAX_PARAMS + 1 })
+    );
+    assert_eq!(bits(block.storage()), before);
+}
