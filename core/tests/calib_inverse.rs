@@ -377,3 +377,74 @@ fn bad_readings_are_refused() {
     assert!(rel(g.detection, 3.3 * 0.02 / fit.slope) < 1e-15);
     assert!(rel(g.quantitation, 10.0 * 0.02 / fit.slope) < 1e-15);
 }
+
+mod random_sets {
+    use super::*;
+    use proptest::prelude::*;
+
+    /// Relative distance of `y0` from the band edge nearest to it at `x`,
+    /// in units of the band's half-width.
+    fn edge_gap(fit: &LineFit, x: f64, r: &Reading, level: f64) -> f64 {
+        let p = fit.prediction(x, r.replicates, level).unwrap();
+        let half = 0.5 * (p.upper - p.lower);
+        (p.upper - r.value).abs().min((p.lower - r.value).abs()) / half
+    }
+
+    proptest! {
+        // Random invented lines, noise, readings and levels: whatever the
+        // case, the set's ends lie on the band edges and membership agrees
+        // with the band (brute force through `LineFit::prediction`).
+        #[test]
+        fn fieller_set_is_the_inverted_band(
+            n in 4usize..16,
+            slope in prop_oneof![-3.0..-0.01f64, 0.01..3.0f64],
+            noise in prop::collection::vec(-1.0..1.0f64, 16),
+            scale in 0.01..2.0f64,
+            offset in -5.0..5.0f64,
+            m in 1u32..4,
+            level in 0.5..0.99f64,
+        ) {
+            let xs: Vec<f64> = (0..n).map(|i| i as f64).collect();
+            let ys: Vec<f64> = xs.iter().zip(&noise).map(|(x, e)| 1.0 + slope * x + scale * e).collect();
+            let mut acc = LeanMoments::new();
+            acc.extend(&xs, &ys).unwrap();
+            let Ok(fit) = acc.fit() else { return Ok(()); };
+            prop_assume!(fit.residual_sd > 0.0 && fit.slope != 0.0);
+            let r = Reading::mean_of(fit.mean_y + offset * fit.residual_sd * 3.0, m);
+            let set = fit.fieller_set(&r, level).unwrap();
+            // Ends on the band edge to 1e-7 of the half-width (the roots of
+            // a possibly ill-conditioned quadratic when g is near 1).
+            let probe = |x: f64| {
+                let inside = in_band(&fit, x, &r, level);
+                let gap = edge_gap(&fit, x, &r, level);
+                (inside, gap)
+            };
+            match set {
+                FiellerSet::Bounded { lower, upper } => {
+                    prop_assert!(lower <= upper);
+                    for x in [lower, upper] {
+                        prop_assert!(probe(x).1 < 1e-7, "end {x}: gap {}", probe(x).1);
+                    }
+                    let mid = 0.5 * (lower + upper);
+                    prop_assert!(probe(mid).0);
+                    let w = (upper - lower).max(1e-9);
+                    prop_assert!(!probe(upper + w).0 && !probe(lower - w).0);
+                }
+                FiellerSet::TwoHalfLines { below, above } => {
+                    prop_assert!(below < above);
+                    for x in [below, above] {
+                        prop_assert!(probe(x).1 < 1e-7, "end {x}: gap {}", probe(x).1);
+                    }
+                    let w = above - below;
+                    prop_assert!(!probe(0.5 * (below + above)).0);
+                    prop_assert!(probe(below - w).0 && probe(above + w).0);
+                }
+                FiellerSet::WholeLine => {
+                    for x in [-1e6, -100.0, 0.0, 7.0, 100.0, 1e6] {
+                        prop_assert!(probe(x).0, "x = {x}");
+                    }
+                }
+            }
+        }
+    }
+}
