@@ -272,10 +272,11 @@ pub fn run(out_dir: &Path) -> Result<DemoOutcome, DemoError> {
         w,
         "\n(5) unknown samples, 3 readings each; CO with 95 % Fieller intervals"
     );
+    let _ = writeln!(w, "{:25}{:<32}weighted line", "", "unweighted line");
     let _ = writeln!(
         w,
         "    {:<7} {:>9}  {:>8} {:<22} {:>8} {:<22} {:>7}",
-        "sample", "mean mV", "CO", "unweighted", "CO", "weighted", "truth*"
+        "sample", "mean mV", "CO", " 95 % Fieller", "CO", " 95 % Fieller", "truth*"
     );
     for s in &sc.samples {
         let m = s.readings.len() as u32;
