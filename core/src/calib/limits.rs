@@ -96,7 +96,7 @@ impl LineFit {
         if self.slope == 0.0 {
             return Err(CalibError::ZeroSlope);
         }
-        let sb = self.slope.abs();
+        let sb = libm::fabs(self.slope);
         Ok(LimitsFromSigma {
             source,
             sigma,
@@ -153,10 +153,10 @@ impl LineFit {
         };
         let s2 = self.scale;
         let h = 1.0 / (replicates as f64 * weight) + k0;
-        let sb = self.slope.abs();
+        let sb = libm::fabs(self.slope);
         // Half-width of the one-sided band at x = 0, in y units.
         let l = ta * libm::sqrt(s2 * (h + cx * cx / q));
-        let y_critical = self.fitted(0.0) + l.copysign(self.slope);
+        let y_critical = self.fitted(0.0) + libm::copysign(l, self.slope);
         let x_critical = l / sb;
         // (|b|·x − L)² = tβ²·s²·(h + (x − x̄)²/q), larger root.
         let tb2s2 = tb * tb * s2;

@@ -105,7 +105,7 @@ impl PairMoments<Full> {
         let zz = szz - suz * suz / suu;
         // Three distinct x give zz > 0; the relative floor catches the
         // rounding residue of two distinct x (zz is then 0 in exact terms).
-        if !(zz > 1e-12 * szz.abs()) || !(zz > 0.0) {
+        if !(zz > 1e-12 * libm::fabs(szz)) || !(zz > 0.0) {
             return Err(CalibError::NoCurvatureSpread);
         }
         let zv = szv - suz * suv / suu;

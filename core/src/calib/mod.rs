@@ -294,7 +294,7 @@ fn quadratic_roots(a: f64, b: f64, c: f64, disc: f64) -> (f64, f64) {
         let r = libm::sqrt((-c / a).max(0.0));
         (-r, r)
     } else {
-        let q = -0.5 * (b + sq.copysign(b));
+        let q = -0.5 * (b + libm::copysign(sq, b));
         let r1 = q / a;
         let r2 = if q != 0.0 { c / q } else { r1 };
         (r1, r2)
