@@ -22,6 +22,8 @@ if ! diff -u ffi-c/include/plumbfit.h "$fresh"; then
   exit 1
 fi
 
+bash tests/c/check_header_docs.sh
+
 echo "-- C tests (gcc C99 + g++), valgrind, NULL-test coverage"
 bash tests/c/run.sh
 
