@@ -179,6 +179,19 @@ pub fn run(out_dir: &Path) -> Result<DemoOutcome, DemoError> {
         fit.residual_sd, fit.df_resid, fit.r_squared
     );
 
+    let top = scenario::STANDARDS[scenario::STANDARDS.len() - 1];
+    let (wh0, wh1) = (
+        fit.simultaneous_band(0.0, LEVEL)?,
+        fit.simultaneous_band(top, LEVEL)?,
+    );
+    let _ = writeln!(
+        w,
+        "    whole-line 95 % band (Working-Hotelling, W = {:.3}): +/- {:.3} mV at 0, +/- {:.3} mV at {top:.0}",
+        wh0.multiplier,
+        wh0.upper - wh0.fitted,
+        wh1.upper - wh1.fitted
+    );
+
     // 3. Adequacy.
     let _ = writeln!(w, "\n(3) is a straight line adequate?");
     let lof = levels.lack_of_fit_line(&fit)?;
@@ -332,6 +345,11 @@ pub fn run(out_dir: &Path) -> Result<DemoOutcome, DemoError> {
         w,
         "    prediction band (alpha = beta = 5 %, mean of 3), weighted:   decide {:6.2}, detect {:6.2}",
         hvw.x_critical, hvw.x_detection
+    );
+
+    let _ = writeln!(
+        w,
+        "    estimated limits; confirm them with samples near the limit before use"
     );
 
     // 7. Report file.

@@ -312,7 +312,8 @@ macro_rules! level_methods {
             (ss, self.count() - self.level_count() as u64)
         }
 
-        /// Lack-of-fit test of a straight line fitted to the same readings.
+        /// Lack-of-fit test of a straight line fitted to the same readings
+        /// (with the same weights, if any).
         ///
         /// # Errors
         /// [`CalibError::CountMismatch`] if the fit holds a different number
