@@ -358,6 +358,9 @@ typedef struct {
  through a fitted line: the x that produced it, with its standard error,
  the exact Fieller confidence set and the symmetric approximate interval.
  Infinite ends appear only in unbounded Fieller sets; nothing is NaN.
+
+ Plain data owned by the caller (stack, static or heap); the library
+ keeps no pointer to it and it may be copied and read from any thread.
  */
 typedef struct {
     /*
@@ -405,6 +408,9 @@ typedef struct {
 /*
  Detection and quantitation limits `3.3 sigma / |slope|` and
  `10 sigma / |slope|`, in x units.
+
+ Plain data owned by the caller (stack, static or heap); the library
+ keeps no pointer to it and it may be copied and read from any thread.
  */
 typedef struct {
     /*
@@ -427,6 +433,9 @@ typedef struct {
 
 /*
  Decision level and limits from the prediction band (Hubaux and Vos).
+
+ Plain data owned by the caller (stack, static or heap); the library
+ keeps no pointer to it and it may be copied and read from any thread.
  */
 typedef struct {
     /*
@@ -454,6 +463,9 @@ typedef struct {
 /*
  The straight line against a quadratic from the same (full-tier) moments
  (Mandel's test value).
+
+ Plain data owned by the caller (stack, static or heap); the library
+ keeps no pointer to it and it may be copied and read from any thread.
  */
 typedef struct {
     /*
@@ -501,6 +513,9 @@ typedef struct {
 
 /*
  Size and alignment, in bytes, of caller storage for an object.
+
+ Plain data owned by the caller (stack, static or heap); the library
+ keeps no pointer to it and it may be copied and read from any thread.
  */
 typedef struct {
     /*
@@ -515,6 +530,9 @@ typedef struct {
 
 /*
  Lack-of-fit F test of a line against replicate levels.
+
+ Plain data owned by the caller (stack, static or heap); the library
+ keeps no pointer to it and it may be copied and read from any thread.
  */
 typedef struct {
     /*
@@ -557,6 +575,9 @@ typedef struct {
 
 /*
  A two-sided interval around an estimate.
+
+ Plain data owned by the caller (stack, static or heap); the library
+ keeps no pointer to it and it may be copied and read from any thread.
  */
 typedef struct {
     /*
@@ -579,6 +600,9 @@ typedef struct {
 
 /*
  Analysis of variance of a line fit.
+
+ Plain data owned by the caller (stack, static or heap); the library
+ keeps no pointer to it and it may be copied and read from any thread.
  */
 typedef struct {
     /*
@@ -617,6 +641,9 @@ typedef struct {
 
 /*
  The accumulated moments as plain numbers (pending pairs included).
+
+ Plain data owned by the caller (stack, static or heap); the library
+ keeps no pointer to it and it may be copied and read from any thread.
  */
 typedef struct {
     /*
@@ -665,6 +692,9 @@ typedef struct {
  Summary of a model fit (coefficients and their standard errors go to
  caller arrays). Optional quantities come with a `has_` flag; when the
  flag is false the value is 0 and means nothing. No field is NaN.
+
+ Plain data owned by the caller (stack, static or heap); the library
+ keeps no pointer to it and it may be copied and read from any thread.
  */
 typedef struct {
     /*

@@ -37,6 +37,9 @@ pub const PF_LEVELS_STORAGE_WORDS: usize = 176;
 /// through a fitted line: the x that produced it, with its standard error,
 /// the exact Fieller confidence set and the symmetric approximate interval.
 /// Infinite ends appear only in unbounded Fieller sets; nothing is NaN.
+///
+/// Plain data owned by the caller (stack, static or heap); the library
+/// keeps no pointer to it and it may be copied and read from any thread.
 #[repr(C)]
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct pf_inverse {
@@ -64,6 +67,9 @@ pub struct pf_inverse {
 
 /// Detection and quantitation limits `3.3 sigma / |slope|` and
 /// `10 sigma / |slope|`, in x units.
+///
+/// Plain data owned by the caller (stack, static or heap); the library
+/// keeps no pointer to it and it may be copied and read from any thread.
 #[repr(C)]
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct pf_limits {
@@ -78,6 +84,9 @@ pub struct pf_limits {
 }
 
 /// Decision level and limits from the prediction band (Hubaux and Vos).
+///
+/// Plain data owned by the caller (stack, static or heap); the library
+/// keeps no pointer to it and it may be copied and read from any thread.
 #[repr(C)]
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct pf_decision_limits {
@@ -95,6 +104,9 @@ pub struct pf_decision_limits {
 
 /// The straight line against a quadratic from the same (full-tier) moments
 /// (Mandel's test value).
+///
+/// Plain data owned by the caller (stack, static or heap); the library
+/// keeps no pointer to it and it may be copied and read from any thread.
 #[repr(C)]
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct pf_quadratic_check {
@@ -122,6 +134,9 @@ pub struct pf_quadratic_check {
 }
 
 /// Lack-of-fit F test of a line against replicate levels.
+///
+/// Plain data owned by the caller (stack, static or heap); the library
+/// keeps no pointer to it and it may be copied and read from any thread.
 #[repr(C)]
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct pf_lack_of_fit {

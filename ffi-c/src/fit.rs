@@ -117,6 +117,9 @@ pub struct pf_fitted_line {
 }
 
 /// A two-sided interval around an estimate.
+///
+/// Plain data owned by the caller (stack, static or heap); the library
+/// keeps no pointer to it and it may be copied and read from any thread.
 #[repr(C)]
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct pf_interval {
@@ -131,6 +134,9 @@ pub struct pf_interval {
 }
 
 /// Analysis of variance of a line fit.
+///
+/// Plain data owned by the caller (stack, static or heap); the library
+/// keeps no pointer to it and it may be copied and read from any thread.
 #[repr(C)]
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct pf_anova {

@@ -48,6 +48,9 @@ pub struct pf_line_full_storage {
 }
 
 /// Size and alignment, in bytes, of caller storage for an object.
+///
+/// Plain data owned by the caller (stack, static or heap); the library
+/// keeps no pointer to it and it may be copied and read from any thread.
 #[repr(C)]
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub struct pf_layout {
@@ -58,6 +61,9 @@ pub struct pf_layout {
 }
 
 /// The accumulated moments as plain numbers (pending pairs included).
+///
+/// Plain data owned by the caller (stack, static or heap); the library
+/// keeps no pointer to it and it may be copied and read from any thread.
 #[repr(C)]
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct pf_moments {

@@ -36,6 +36,9 @@ pub struct pf_model {
 /// Summary of a model fit (coefficients and their standard errors go to
 /// caller arrays). Optional quantities come with a `has_` flag; when the
 /// flag is false the value is 0 and means nothing. No field is NaN.
+///
+/// Plain data owned by the caller (stack, static or heap); the library
+/// keeps no pointer to it and it may be copied and read from any thread.
 #[repr(C)]
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct pf_model_info {
