@@ -32,13 +32,25 @@ fn forgetting_equals_explicit_age_weights() {
     let fit = forgetful.fit().unwrap();
     // λ^k is rounded once per multiplication in the accumulator and once by
     // powi here: agreement to ~1e-12 covers 200 roundings of each weight.
-    assert!(rel(fit.slope, f(&exact.slope())) <= 1e-11, "{} vs {}", fit.slope, f(&exact.slope()));
+    assert!(
+        rel(fit.slope, f(&exact.slope())) <= 1e-11,
+        "{} vs {}",
+        fit.slope,
+        f(&exact.slope())
+    );
     assert!(rel(fit.intercept, f(&exact.intercept())) <= 1e-11);
-    assert!(fit.approximate, "intervals under forgetting are marked approximate");
+    assert!(
+        fit.approximate,
+        "intervals under forgetting are marked approximate"
+    );
     // Kish effective size: (Σw)²/Σw² = (1+λ)(1−λ^n)/((1−λ)(1+λ^n)) for geometric weights.
     let ln = lambda.powi(n as i32);
     let kish = (1.0 + lambda) * (1.0 - ln) / ((1.0 - lambda) * (1.0 + ln));
-    assert!(rel(fit.effective_count, kish) <= 1e-10, "{} vs {kish}", fit.effective_count);
+    assert!(
+        rel(fit.effective_count, kish) <= 1e-10,
+        "{} vs {kish}",
+        fit.effective_count
+    );
     assert!(rel(fit.df_resid, kish - 2.0) <= 1e-10);
 }
 
