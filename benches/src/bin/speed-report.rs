@@ -185,6 +185,10 @@ fn main() {
         "load average at start: {load0}; at end: {load1}; cores: {}",
         std::thread::available_parallelism().map_or(0, |n| n.get())
     );
+    println!(
+        "simd kernels: {}",
+        plumbfit_kernels::active().unwrap_or("none (scalar kernels)")
+    );
     println!();
     println!(
         "| {:<34} | {:>10} | {:>12} | {:<8} | {:>8} |",
