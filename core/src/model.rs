@@ -777,8 +777,11 @@ impl RowSource for FlatRows<'_> {
     #[inline(always)]
     fn fill<const N: usize>(&self, r: usize, l: usize, o: &mut Obs<N>) {
         let row = &self.rows[r * self.p..(r + 1) * self.p];
-        for (x, v) in o.xh.iter_mut().zip(row) {
-            x[l] = *v;
+        // The low parts are reset too: `include` leaves the rotated
+        // working row in the buffer.
+        for ((xh, xl), v) in o.xh.iter_mut().zip(o.xl.iter_mut()).zip(row) {
+            xh[l] = *v;
+            xl[l] = 0.0;
         }
     }
 }
@@ -897,16 +900,26 @@ fn fold_rows<S: RowSource>(
         // empty and are merged in at the end.
         let mut lanes = Work::<LANES>::empty(p);
         lanes.load_lane(0, s);
+        // One observation buffer for the whole block: `fill` overwrites
+        // columns 0..p of every lane and `include` reads nothing beyond.
+        let mut o = Obs::<LANES>::zero();
         let mut r0 = 0;
         while r0 < n {
-            let mut o = Obs::<LANES>::zero();
             for l in 0..LANES {
                 let r = r0 + l;
                 if r < n {
                     src.fill(r, l, &mut o);
                     o.yh[l] = ys[r];
                     o.wh[l] = weight(r);
-                } // else weight 0: a no-op lane
+                } else {
+                    // Weight 0 makes the lane a no-op; zero the rest too.
+                    for j in 0..p {
+                        o.xh[j][l] = 0.0;
+                        o.xl[j][l] = 0.0;
+                    }
+                    o.yh[l] = 0.0;
+                    o.wh[l] = 0.0;
+                }
             }
             lanes.include(0, &mut o);
             r0 += LANES;
