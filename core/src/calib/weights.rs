@@ -205,6 +205,11 @@ impl WeightedCalibration {
     /// the weight the variance function gives at the reading (evaluated at
     /// the estimate `x̂₀`, with the mean taken as `y0`).
     ///
+    /// With a variance that depends on `x` the exact confidence set is no
+    /// longer the root set of a quadratic; fixing the reading's weight at
+    /// `x̂₀` is the usual approximation (common practice) and keeps the
+    /// Fieller machinery of [`LineFit::invert_interval`] exact otherwise.
+    ///
     /// # Errors
     /// [`CalibError::InvalidReplicates`], [`CalibError::NonFinite`],
     /// [`CalibError::ZeroSlope`], [`CalibError::VarianceUndefined`] where the
