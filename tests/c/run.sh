@@ -1,7 +1,9 @@
 #!/usr/bin/env bash
 # Builds the C library (release), the Rust reference values and the C tests
 # (as C99 with gcc and as C++ with g++), then runs every test under valgrind
-# (any error or leak fails) and checks that the NULL test covers the header.
+# (any error or leak fails), once more built with AddressSanitizer and
+# UndefinedBehaviorSanitizer on the C side, and checks that the NULL test
+# covers the header.
 set -euo pipefail
 cd "$(dirname "$0")/../.."
 LIB="${CARGO_TARGET_DIR:-target}/release"
@@ -27,4 +29,12 @@ for t in test_null test_null-cxx; do
   echo "-- $t (valgrind)"
   $VG "$OUT/$t"
 done
+SAN="-fsanitize=address,undefined -fno-sanitize-recover=all"
+for t in test_line test_null; do
+  # shellcheck disable=SC2086
+  gcc $CFLAGS_C $SAN -I ffi-c/include "tests/c/$t.c" "$LIB/libplumbfit.a" $STATIC_LIBS -o "$OUT/$t-san"
+done
+echo "-- test_line, test_null (address + undefined-behaviour sanitizers)"
+"$OUT/test_line-san" "$OUT/parity_values.txt"
+"$OUT/test_null-san"
 bash tests/c/check_null_coverage.sh
