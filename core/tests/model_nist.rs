@@ -251,8 +251,8 @@ fn nist_strd_certified_values_in_three_orders() {
             // Our own rounding, separated from the rounding of the inputs:
             // coefficients against the exact solution of the same doubles.
             let ex = exact.get_or_insert_with(|| exact_beta(&c, &data));
-            for j in 0..ex.len() {
-                let l = lre(fit.coefficients[j], ex[j]);
+            for (j, (&got, &want)) in fit.coefficients.iter().zip(ex.iter()).enumerate() {
+                let l = lre(got, want);
                 checked += 1;
                 if l < MIN_LRE_VS_EXACT_ALL {
                     failures.push(format!(
