@@ -290,6 +290,13 @@ mod kern {
         fast_two_sum(p, e + (ah * bl + al * bh))
     }
 
+    /// Double-double product with `a` given pre-split (`ahh + ahl = ah`).
+    #[inline(always)]
+    pub fn mul_split(ah: f64, al: f64, ahh: f64, ahl: f64, bh: f64, bl: f64) -> (f64, f64) {
+        let (p, e) = two_prod_split(ah, ahh, ahl, bh);
+        fast_two_sum(p, e + (ah * bl + al * bh))
+    }
+
     /// Double-double sum (the cheap form: the low parts are added in
     /// double, which is backward stable at double-double precision).
     #[inline(always)]
@@ -497,10 +504,12 @@ impl<const N: usize> Work<N> {
         let mut yl = o.yl;
         let mut row = rbar_row(p, start);
         for i in start..p {
-            // Per-lane rotation scalars, with −x_i and s̄ pre-split for the
-            // products of the inner loop.
+            // Per-lane rotation scalars, with −x_i, s̄ and c̄ pre-split for
+            // the products of the inner loop.
             let mut nx = [[0.0f64; N]; 4];
             let mut sb = [[0.0f64; N]; 4];
+            let mut cb = [[0.0f64; N]; 4];
+            let mut cheap = true;
             for l in 0..N {
                 let (xih, xil) = (o.xh[i][l], o.xl[i][l]);
                 let (di_h, di_l) = (self.dh[i][l], self.dl[i][l]);
@@ -511,15 +520,16 @@ impl<const N: usize> Work<N> {
                 let (ih, il) =
                     kern::recip(if zero { 1.0 } else { nh }, if zero { 0.0 } else { nl });
                 let (sh, sl) = kern::mul(wxh, wxl, ih, il);
-                let (cwh, cwl) = kern::mul(wh[l], wl[l], di_h, di_l);
-                let (cwh, cwl) = kern::mul(cwh, cwl, ih, il);
+                let (ch, cl) = kern::mul(di_h, di_l, ih, il);
+                // An empty column met by a zero regressor: identity rotation.
                 let (sh, sl) = if zero { (0.0, 0.0) } else { (sh, sl) };
-                if !zero {
-                    wh[l] = cwh;
-                    wl[l] = cwl;
-                }
+                let (ch, cl) = if zero { (1.0, 0.0) } else { (ch, cl) };
+                let (nwh, nwl) = kern::mul(wh[l], wl[l], ch, cl);
+                wh[l] = nwh;
+                wl[l] = nwl;
                 self.dh[i][l] = nh;
                 self.dl[i][l] = nl;
+                cheap &= ch >= 0.5;
                 let (a, b) = kern::split(-xih);
                 nx[0][l] = -xih;
                 nx[1][l] = -xil;
@@ -530,6 +540,11 @@ impl<const N: usize> Work<N> {
                 sb[1][l] = sl;
                 sb[2][l] = a;
                 sb[3][l] = b;
+                let (a, b) = kern::split(ch);
+                cb[0][l] = ch;
+                cb[1][l] = cl;
+                cb[2][l] = a;
+                cb[3][l] = b;
             }
             // Slices instead of indices: no bounds checks in the hot loop.
             let len = p - i - 1;
@@ -537,51 +552,65 @@ impl<const N: usize> Work<N> {
             let rl = &mut self.rl[row..row + len];
             let (_, xh) = o.xh[..p].split_at_mut(i + 1);
             let (_, xl) = o.xl[..p].split_at_mut(i + 1);
-            for (((rh, rl), xh), xl) in rh
+            let entries = rh
                 .iter_mut()
                 .zip(rl.iter_mut())
                 .zip(xh.iter_mut())
-                .zip(xl.iter_mut())
-            {
-                for l in 0..N {
-                    // x_k ← x_k − x_i·R̄_ik, then R̄_ik ← R̄_ik + s̄·x_k (new
-                    // x_k): equal to c̄·R̄_ik + s̄·x_k(old) since c̄ + s̄·x_i = 1,
-                    // and one product cheaper.
-                    let (xkh, xkl) = kern::fma(
-                        xh[l], xl[l], nx[0][l], nx[1][l], nx[2][l], nx[3][l], rh[l], rl[l],
-                    );
-                    xh[l] = xkh;
-                    xl[l] = xkl;
-                    let (nrh, nrl) = kern::fma(
-                        rh[l], rl[l], sb[0][l], sb[1][l], sb[2][l], sb[3][l], xkh, xkl,
-                    );
-                    rh[l] = nrh;
-                    rl[l] = nrl;
+                .zip(xl.iter_mut());
+            if cheap {
+                // Steady state (c̄ ≥ 1/2): R̄_ik ← R̄_ik + s̄·x_k(new) equals
+                // c̄·R̄_ik + s̄·x_k(old) because c̄ + s̄·x_i = 1, one product
+                // cheaper, and the sum cannot cancel by more than a factor 2.
+                for (((rh, rl), xh), xl) in entries {
+                    for l in 0..N {
+                        let (xkh, xkl) = kern::fma(
+                            xh[l], xl[l], nx[0][l], nx[1][l], nx[2][l], nx[3][l], rh[l], rl[l],
+                        );
+                        xh[l] = xkh;
+                        xl[l] = xkl;
+                        let (nrh, nrl) = kern::fma(
+                            rh[l], rl[l], sb[0][l], sb[1][l], sb[2][l], sb[3][l], xkh, xkl,
+                        );
+                        rh[l] = nrh;
+                        rl[l] = nrl;
+                    }
+                }
+            } else {
+                // A heavy row against a light factor row (early rows, merges,
+                // a nearly singular start): the cheap form would cancel a
+                // large old R̄ against itself, so use Gentleman's original
+                // c̄·R̄ + s̄·x(old).
+                for (((rh, rl), xh), xl) in entries {
+                    for l in 0..N {
+                        let (oxh, oxl) = (xh[l], xl[l]);
+                        let (xkh, xkl) = kern::fma(
+                            oxh, oxl, nx[0][l], nx[1][l], nx[2][l], nx[3][l], rh[l], rl[l],
+                        );
+                        xh[l] = xkh;
+                        xl[l] = xkl;
+                        let (crh, crl) =
+                            kern::mul_split(cb[0][l], cb[1][l], cb[2][l], cb[3][l], rh[l], rl[l]);
+                        let (nrh, nrl) =
+                            kern::fma(crh, crl, sb[0][l], sb[1][l], sb[2][l], sb[3][l], oxh, oxl);
+                        rh[l] = nrh;
+                        rl[l] = nrl;
+                    }
                 }
             }
             for l in 0..N {
-                let (nyh, nyl) = kern::fma(
-                    yh[l],
-                    yl[l],
-                    nx[0][l],
-                    nx[1][l],
-                    nx[2][l],
-                    nx[3][l],
-                    self.th[i][l],
-                    self.tl[i][l],
-                );
+                let (oyh, oyl) = (yh[l], yl[l]);
+                let (th0, tl0) = (self.th[i][l], self.tl[i][l]);
+                let (nyh, nyl) =
+                    kern::fma(oyh, oyl, nx[0][l], nx[1][l], nx[2][l], nx[3][l], th0, tl0);
                 yh[l] = nyh;
                 yl[l] = nyl;
-                let (th, tl) = kern::fma(
-                    self.th[i][l],
-                    self.tl[i][l],
-                    sb[0][l],
-                    sb[1][l],
-                    sb[2][l],
-                    sb[3][l],
-                    nyh,
-                    nyl,
-                );
+                let (th, tl) = if cheap {
+                    kern::fma(th0, tl0, sb[0][l], sb[1][l], sb[2][l], sb[3][l], nyh, nyl)
+                } else {
+                    let (ch, cl) =
+                        kern::mul_split(cb[0][l], cb[1][l], cb[2][l], cb[3][l], th0, tl0);
+                    kern::fma(ch, cl, sb[0][l], sb[1][l], sb[2][l], sb[3][l], oyh, oyl)
+                };
                 self.th[i][l] = th;
                 self.tl[i][l] = tl;
             }

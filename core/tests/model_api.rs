@@ -2,6 +2,7 @@
 //! forgetting consistency, bad input leaving the state unchanged, and the
 //! inference helpers.
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly
+#![allow(clippy::needless_range_loop)] // indices pair each coefficient with its reference
 
 use plumbfit::model::{
     poly_fit, storage_len, InterceptMode, ModelCore, ModelError, ModelFitOptions, ModelMoments,
@@ -531,4 +532,93 @@ fn power_rows_block_and_single_agree_and_reject_bad_input() {
         Err(ModelError::InvalidParamCount { p: MAX_PARAMS + 1 })
     );
     assert_eq!(bits(block.storage()), before);
+}
+
+#[test]
+fn merging_an_empty_accumulator_changes_nothing() {
+    let (rows, ys) = design(50);
+    let mut acc = ModelMoments::new(3).unwrap();
+    acc.extend_rows(&rows, &ys).unwrap();
+    let before = bits(acc.storage());
+    acc.merge(&ModelMoments::new(3).unwrap()).unwrap();
+    // Empty rows of the other factor are skipped and adding a zero residual
+    // sum is exact, so the state keeps every bit.
+    assert_eq!(bits(acc.storage()), before);
+    let mut buf = vec![0.0; storage_len(3)];
+    let empty = ModelCore::new_in(&mut buf, 3).unwrap();
+    let mut buf2 = acc.storage().to_vec();
+    let mut core = ModelCore::attach(&mut buf2).unwrap();
+    core.merge(&empty).unwrap();
+    assert_eq!(bits(core.storage()), before);
+}
+
+#[test]
+fn forgetting_then_merging_equals_weighted_rows() {
+    // A (old rows) forgotten by λ, then merged with B (new rows), equals one
+    // accumulator with A's rows at weight λ and B's at weight 1.
+    let (rows, ys) = design(120);
+    let lambda = 0.25;
+    let (ra, rb) = rows.split_at(3 * 70);
+    let (ya, yb) = ys.split_at(70);
+    let mut a = ModelMoments::new(3).unwrap();
+    a.extend_rows(ra, ya).unwrap();
+    a.forget(lambda).unwrap();
+    let mut b = ModelMoments::new(3).unwrap();
+    b.extend_rows(rb, yb).unwrap();
+    a.merge(&b).unwrap();
+    let mut ws = vec![lambda; 70];
+    ws.extend(std::iter::repeat_n(1.0, 50));
+    let mut direct = ModelMoments::new(3).unwrap();
+    direct.extend_rows_weighted(&rows, &ys, &ws).unwrap();
+    let opts = ModelFitOptions::default();
+    let (f, g) = (a.fit(&opts).unwrap(), direct.fit(&opts).unwrap());
+    assert!(f.forgetting_applied);
+    for j in 0..3 {
+        assert!(
+            close(f.coefficients[j], g.coefficients[j], REL_DD),
+            "coef {j}: {} vs {}",
+            f.coefficients[j],
+            g.coefficients[j]
+        );
+        assert!(close(f.std_errors[j], g.std_errors[j], REL_DD), "se {j}");
+    }
+    assert!(close(f.sse, g.sse, REL_DD));
+    // λ is a power of two, so the weight sums agree exactly.
+    assert_eq!(f.weight_sum, g.weight_sum);
+    assert_eq!(f.rows, 120);
+}
+
+#[test]
+fn collinear_first_rows_do_not_spoil_the_factor() {
+    // Regression: rows 70..72 of this design are exactly collinear in
+    // binary, so the third factor row starts as pure rounding noise; the
+    // next rotation used to cancel that noise against itself and lost five
+    // digits in a merge of rows 0..70 with 70..120. Reference: exact
+    // rational least squares of the same doubles.
+    let (rows, ys) = design(120);
+    let exact = [
+        0.995_246_034_506_903_7,
+        2.000_178_170_642_541,
+        -0.499_800_522_325_231_37,
+    ];
+    let exact_sse = 0.291_104_706_387_558;
+    let mut a = ModelMoments::new(3).unwrap();
+    for (r, y) in rows[..210].chunks_exact(3).zip(&ys[..70]) {
+        a.push_row(r, *y).unwrap();
+    }
+    let mut b = ModelMoments::new(3).unwrap();
+    for (r, y) in rows[210..].chunks_exact(3).zip(&ys[70..]) {
+        b.push_row(r, *y).unwrap();
+    }
+    a.merge(&b).unwrap();
+    let fit = a.fit(&ModelFitOptions::default()).unwrap();
+    for j in 0..3 {
+        // Condition ~1e2, ~30-digit factor: a few ulps of the double result.
+        assert!(
+            close(fit.coefficients[j], exact[j], REL_DD),
+            "coef {j}: {}",
+            fit.coefficients[j]
+        );
+    }
+    assert!(close(fit.sse, exact_sse, REL_DD), "sse {}", fit.sse);
 }
