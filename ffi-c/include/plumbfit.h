@@ -71,6 +71,72 @@
 #define PF_LEVELS_STORAGE_WORDS 176
 
 /*
+ `pf_stream_checks.serial_method`: exact p value from the x values.
+ */
+#define PF_SERIAL_EXACT 0
+
+/*
+ Normal approximation with the design's exact mean and variance.
+ */
+#define PF_SERIAL_NORMAL 1
+
+/*
+ Exact p values of the bounding statistics (no x values kept).
+ */
+#define PF_SERIAL_EXACT_BOUNDS 2
+
+/*
+ Normal approximations of the bounding statistics.
+ */
+#define PF_SERIAL_NORMAL_BOUNDS 3
+
+/*
+ Too few points for a p value; the range is [0, 1].
+ */
+#define PF_SERIAL_UNAVAILABLE 4
+
+/*
+ `pf_point_influence.flags` bit: leverage above 2p/n.
+ */
+#define PF_INFLUENCE_HIGH_LEVERAGE 1
+
+/*
+ Flag bit: |deleted t| > 2.
+ */
+#define PF_INFLUENCE_RESIDUAL_OVER_2 2
+
+/*
+ Flag bit: |deleted t| > 3.
+ */
+#define PF_INFLUENCE_RESIDUAL_OVER_3 4
+
+/*
+ Flag bit: Cook's distance above 4/n.
+ */
+#define PF_INFLUENCE_COOK_OVER_4_N 8
+
+/*
+ Flag bit: Cook's distance above 1.
+ */
+#define PF_INFLUENCE_COOK_OVER_1 16
+
+/*
+ Flag bit: |DFFITS| > 2 sqrt(p/n).
+ */
+#define PF_INFLUENCE_DFFITS_LARGE 32
+
+/*
+ Flag bit: leverage 1; the other measures are undefined and 0.
+ */
+#define PF_INFLUENCE_LEVERAGE_ONE 64
+
+/*
+ Flag bit: deleting the point leaves an exact fit (deleted t and DFFITS
+ reported as 0).
+ */
+#define PF_INFLUENCE_DELETION_EXACT 128
+
+/*
  `pf_line_fit` option bit: fit `y = b*x` (no intercept); R^2 is then
  uncentred.
  */
@@ -574,6 +640,157 @@ typedef struct {
 } pf_lack_of_fit;
 
 /*
+ Residual checks of the straight line computed from a full-tier
+ accumulator alone (no stored readings). Defined for unweighted data
+ without forgetting.
+
+ Plain data owned by the caller (stack, static or heap); the library
+ keeps no pointer to it and it may be copied and read from any thread.
+ */
+typedef struct {
+    /*
+     Number of points.
+     */
+    uint64_t count;
+    /*
+     Mean residual (0 for a fit with intercept).
+     */
+    double resid_mean;
+    /*
+     Sum of squared residuals.
+     */
+    double resid_sq_sum;
+    /*
+     Sum of cubed residuals.
+     */
+    double resid_cube_sum;
+    /*
+     Sum of fourth powers of the residuals.
+     */
+    double resid_fourth_sum;
+    /*
+     Sum of squared residuals times (x - mean x).
+     */
+    double resid_sq_dx_sum;
+    /*
+     Skewness of the residuals (moments with divisor n).
+     */
+    double skewness;
+    /*
+     Kurtosis of the residuals (3 for normal data, not the excess).
+     */
+    double kurtosis;
+    /*
+     Jarque-Bera normality statistic.
+     */
+    double jarque_bera;
+    /*
+     Its asymptotic p value (chi-square, 2 degrees of freedom).
+     */
+    double jarque_bera_p;
+    /*
+     Breusch-Pagan spread statistic (original form).
+     */
+    double spread_stat;
+    /*
+     Its p value (chi-square, 1 degree of freedom).
+     */
+    double spread_p;
+    /*
+     Koenker's studentized form of the spread statistic.
+     */
+    double spread_stat_studentized;
+    /*
+     Its p value.
+     */
+    double spread_p_studentized;
+    /*
+     Durbin-Watson statistic of the residuals in push order.
+     */
+    double durbin_watson;
+    /*
+     Lag-1 autocorrelation of the residuals.
+     */
+    double lag1_autocorrelation;
+    /*
+     Lower end of the p value against positive autocorrelation.
+     */
+    double serial_p_low;
+    /*
+     Upper end of that p value (use this end for a conservative test).
+     */
+    double serial_p_high;
+    /*
+     How the serial p value was obtained (`PF_SERIAL_*`).
+     */
+    uint32_t serial_method;
+} pf_stream_checks;
+
+/*
+ Influence measures of one retained point, with screening flags
+ (common-practice cut-offs; screening aids, not verdicts).
+
+ Plain data owned by the caller (stack, static or heap); the library
+ keeps no pointer to it and it may be copied and read from any thread.
+ */
+typedef struct {
+    /*
+     Residual.
+     */
+    double residual;
+    /*
+     Leverage (hat-matrix diagonal).
+     */
+    double leverage;
+    /*
+     Internally studentized residual.
+     */
+    double studentized;
+    /*
+     Externally studentized (deleted) residual.
+     */
+    double deleted_t;
+    /*
+     Cook's distance.
+     */
+    double cooks_distance;
+    /*
+     DFFITS.
+     */
+    double dffits;
+    /*
+     Bit set of `PF_INFLUENCE_*` flags.
+     */
+    uint32_t flags;
+} pf_point_influence;
+
+/*
+ A normality test of a sample (e.g. residuals).
+
+ Plain data owned by the caller (stack, static or heap); the library
+ keeps no pointer to it and it may be copied and read from any thread.
+ */
+typedef struct {
+    /*
+     Sample size.
+     */
+    uint64_t count;
+    /*
+     Test statistic (Shapiro-Wilk W, or Anderson-Darling A^2).
+     */
+    double statistic;
+    /*
+     Small-sample modified statistic (Anderson-Darling); equals
+     `statistic` for Shapiro-Wilk.
+     */
+    double statistic_modified;
+    /*
+     p value.
+     */
+    double p_value;
+} pf_normality;
+
+/*
  A two-sided interval around an estimate.
 
  Plain data owned by the caller (stack, static or heap); the library
@@ -962,6 +1179,27 @@ typedef struct {
 #define PF_ERR_NO_INTERCEPT 37
 
 /*
+ Diagnostics: an output array is shorter than the number of values.
+ */
+#define PF_ERR_DIAG_OUTPUT_TOO_SHORT 40
+
+/*
+ Diagnostics: the fit is through the origin; these checks need an
+ intercept.
+ */
+#define PF_ERR_DIAG_THROUGH_ORIGIN 41
+
+/*
+ Diagnostics: the fit was made from a different number of points.
+ */
+#define PF_ERR_DIAG_FIT_MISMATCH 42
+
+/*
+ Diagnostics: the design rows do not match the model.
+ */
+#define PF_ERR_DIAG_MODEL_MISMATCH 43
+
+/*
  A required pointer argument is NULL.
  */
 #define PF_ERR_NULL_POINTER 60
@@ -1057,6 +1295,31 @@ typedef struct {
  Calibration: the residual variance is zero where a ratio is needed.
  */
 #define PF_ERR_ZERO_RESIDUAL 137
+
+/*
+ Diagnostics: more points than the method is defined for.
+ */
+#define PF_ERR_DIAG_TOO_MANY_POINTS 140
+
+/*
+ Diagnostics: weighted data are not supported by this check.
+ */
+#define PF_ERR_DIAG_WEIGHTED 141
+
+/*
+ Diagnostics: data aged by forgetting are not supported by this check.
+ */
+#define PF_ERR_DIAG_FORGOTTEN 142
+
+/*
+ Diagnostics: all residuals are zero (an exact fit).
+ */
+#define PF_ERR_ZERO_RESIDUAL_VARIANCE 143
+
+/*
+ Diagnostics: the p value integration did not converge.
+ */
+#define PF_ERR_NO_CONVERGENCE 144
 
 /*
  The library could not allocate memory for a new handle (use caller
@@ -1305,6 +1568,90 @@ pf_status pf_levels_count(const pf_levels *l, uint64_t *count_out, size_t *level
  or valid for one `pf_lack_of_fit`.
  */
 pf_status pf_levels_lack_of_fit(const pf_levels *l, const pf_fitted_line *fit, pf_lack_of_fit *out);
+
+/*
+ Residual checks of the line from a full-tier accumulator alone, stored
+ in `*out`.
+
+ Errors: `PF_ERR_NULL_POINTER`, `PF_ERR_NEEDS_FULL_TIER`,
+ `PF_ERR_TOO_FEW_POINTS`, `PF_ERR_NO_SPREAD`, `PF_ERR_DIAG_WEIGHTED`,
+ `PF_ERR_DIAG_FORGOTTEN`, `PF_ERR_ZERO_RESIDUAL_VARIANCE`,
+ `PF_ERR_NO_CONVERGENCE`, handle errors. Read-only.
+
+ # Safety
+ `line` NULL or a live handle; `out` NULL or valid for one
+ `pf_stream_checks`.
+ */
+pf_status pf_line_stream_checks(const pf_line *line, pf_stream_checks *out);
+
+/*
+ Residuals `ys[i] - fitted(xs[i])` of `fit` (the unweighted fit with
+ intercept of exactly these `len` pairs), written to `out` of capacity
+ `cap` values (at least `len`). No heap.
+
+ Errors: `PF_ERR_NULL_POINTER` (any pointer, even with `len` 0),
+ `PF_ERR_MISALIGNED`, `PF_ERR_BAD_ARGUMENT`, `PF_ERR_EMPTY_INPUT`,
+ `PF_ERR_NON_FINITE`, `PF_ERR_DIAG_THROUGH_ORIGIN`, `PF_ERR_DIAG_WEIGHTED`,
+ `PF_ERR_DIAG_FORGOTTEN`, `PF_ERR_DIAG_FIT_MISMATCH`,
+ `PF_ERR_DIAG_OUTPUT_TOO_SHORT`. `out` is untouched on error.
+ Thread-safe (reads its inputs only).
+
+ # Safety
+ `fit` NULL or valid for reading; `xs`, `ys` NULL or valid for `len`
+ doubles; `out` NULL or valid for `cap` doubles.
+ */
+pf_status pf_fitted_line_residuals(const pf_fitted_line *fit,
+                                   const double *xs,
+                                   const double *ys,
+                                   size_t len,
+                                   double *out,
+                                   size_t cap);
+
+/*
+ Influence measures of every pair (`len` pairs, the same ones `fit` was
+ made from), written to `out` of capacity `cap` entries (at least `len`).
+ Needs at least 4 pairs. No heap up to 256 pairs.
+
+ Errors: as `pf_fitted_line_residuals`, plus `PF_ERR_TOO_FEW_POINTS` and
+ `PF_ERR_ZERO_RESIDUAL_VARIANCE`. `out` is untouched on error.
+
+ # Safety
+ `fit` NULL or valid for reading; `xs`, `ys` NULL or valid for `len`
+ doubles; `out` NULL or valid for `cap` entries.
+ */
+pf_status pf_fitted_line_influence(const pf_fitted_line *fit,
+                                   const double *xs,
+                                   const double *ys,
+                                   size_t len,
+                                   pf_point_influence *out,
+                                   size_t cap);
+
+/*
+ Shapiro-Wilk normality test of `len` values (e.g. residuals), stored in
+ `*out`. Uses the heap for a sorted copy.
+
+ Errors: `PF_ERR_NULL_POINTER`, `PF_ERR_MISALIGNED`, `PF_ERR_BAD_ARGUMENT`,
+ `PF_ERR_EMPTY_INPUT`, `PF_ERR_NON_FINITE`, `PF_ERR_TOO_FEW_POINTS`,
+ `PF_ERR_DIAG_TOO_MANY_POINTS`, `PF_ERR_ZERO_RESIDUAL_VARIANCE`.
+ Thread-safe.
+
+ # Safety
+ `values` NULL or valid for `len` doubles; `out` NULL or valid for one
+ `pf_normality`.
+ */
+pf_status pf_shapiro_wilk(const double *values, size_t len, pf_normality *out);
+
+/*
+ Anderson-Darling normality test of `len` values, stored in `*out`. Uses
+ the heap for a sorted copy.
+
+ Errors: as `pf_shapiro_wilk`. Thread-safe.
+
+ # Safety
+ `values` NULL or valid for `len` doubles; `out` NULL or valid for one
+ `pf_normality`.
+ */
+pf_status pf_anderson_darling(const double *values, size_t len, pf_normality *out);
 
 /*
  The fitted value `yhat(x)` of the line at `x`, stored in `*out`.

@@ -21,6 +21,7 @@
 
 mod boundary;
 pub mod calib;
+pub mod diag;
 pub mod fit;
 pub mod line;
 pub mod model;

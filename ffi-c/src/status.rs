@@ -68,6 +68,15 @@ pub const PF_ERR_COUNT_MISMATCH: pf_status = 35;
 pub const PF_ERR_INVALID_DOF: pf_status = 36;
 /// Calibration: the quantity needs an intercept; the line has none.
 pub const PF_ERR_NO_INTERCEPT: pf_status = 37;
+/// Diagnostics: an output array is shorter than the number of values.
+pub const PF_ERR_DIAG_OUTPUT_TOO_SHORT: pf_status = 40;
+/// Diagnostics: the fit is through the origin; these checks need an
+/// intercept.
+pub const PF_ERR_DIAG_THROUGH_ORIGIN: pf_status = 41;
+/// Diagnostics: the fit was made from a different number of points.
+pub const PF_ERR_DIAG_FIT_MISMATCH: pf_status = 42;
+/// Diagnostics: the design rows do not match the model.
+pub const PF_ERR_DIAG_MODEL_MISMATCH: pf_status = 43;
 /// A required pointer argument is NULL.
 pub const PF_ERR_NULL_POINTER: pf_status = 60;
 /// Caller storage or an output array is too small.
@@ -108,6 +117,16 @@ pub const PF_ERR_TOO_FEW_LEVELS: pf_status = 135;
 pub const PF_ERR_NO_CURVATURE_SPREAD: pf_status = 136;
 /// Calibration: the residual variance is zero where a ratio is needed.
 pub const PF_ERR_ZERO_RESIDUAL: pf_status = 137;
+/// Diagnostics: more points than the method is defined for.
+pub const PF_ERR_DIAG_TOO_MANY_POINTS: pf_status = 140;
+/// Diagnostics: weighted data are not supported by this check.
+pub const PF_ERR_DIAG_WEIGHTED: pf_status = 141;
+/// Diagnostics: data aged by forgetting are not supported by this check.
+pub const PF_ERR_DIAG_FORGOTTEN: pf_status = 142;
+/// Diagnostics: all residuals are zero (an exact fit).
+pub const PF_ERR_ZERO_RESIDUAL_VARIANCE: pf_status = 143;
+/// Diagnostics: the p value integration did not converge.
+pub const PF_ERR_NO_CONVERGENCE: pf_status = 144;
 /// The library could not allocate memory for a new handle (use caller
 /// storage with `_init_in` to avoid the heap).
 pub const PF_ERR_OUT_OF_MEMORY: pf_status = 68;
@@ -167,6 +186,15 @@ fn message(status: u32) -> &'static str {
         PF_ERR_TOO_FEW_LEVELS => "too few levels for the model\0",
         PF_ERR_NO_CURVATURE_SPREAD => "x values do not support a quadratic term\0",
         PF_ERR_ZERO_RESIDUAL => "residual variance is zero\0",
+        PF_ERR_DIAG_OUTPUT_TOO_SHORT => "output array too short\0",
+        PF_ERR_DIAG_THROUGH_ORIGIN => "fit through the origin; diagnostics need an intercept\0",
+        PF_ERR_DIAG_FIT_MISMATCH => "fit made from a different number of points\0",
+        PF_ERR_DIAG_MODEL_MISMATCH => "rows do not match the model\0",
+        PF_ERR_DIAG_TOO_MANY_POINTS => "too many points for the method\0",
+        PF_ERR_DIAG_WEIGHTED => "weighted data not supported by this diagnostic\0",
+        PF_ERR_DIAG_FORGOTTEN => "forgotten data not supported by this diagnostic\0",
+        PF_ERR_ZERO_RESIDUAL_VARIANCE => "residual variance is zero (exact fit)\0",
+        PF_ERR_NO_CONVERGENCE => "p value integration did not converge\0",
         PF_ERR_NULL_POINTER => "null pointer argument\0",
         PF_ERR_BUFFER_TOO_SMALL => "buffer too small\0",
         PF_ERR_MISALIGNED => "buffer misaligned\0",

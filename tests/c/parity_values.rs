@@ -417,6 +417,64 @@ fn calib_scenarios(o: &mut Out, d: &[[f64; 3]]) {
     o.f("calib.lof.f_p", r.p_value());
 }
 
+/// Diagnostics scenarios, in the order `tests/c/test_line.c` runs them.
+fn diag_scenarios(o: &mut Out, d: &[[f64; 3]]) {
+    let mut full = pf_core::FullMoments::new();
+    for p in d {
+        full.push(p[0], p[1]).unwrap();
+    }
+    let c = pf_core::diag::stream_checks(&full).unwrap();
+    let (s, r) = (c.shape, c.serial);
+    o.n("diag.stream.count", s.count);
+    for (k, v) in [
+        ("resid_mean", s.residual_mean),
+        ("resid_sq_sum", s.sum_sq),
+        ("resid_cube_sum", s.sum_cube),
+        ("resid_fourth_sum", s.sum_fourth),
+        ("resid_sq_dx_sum", s.sum_sq_dx),
+        ("skewness", s.skewness),
+        ("kurtosis", s.kurtosis),
+        ("jarque_bera", s.jarque_bera),
+        ("jarque_bera_p", s.jarque_bera_p),
+        ("spread_stat", s.spread_lm),
+        ("spread_p", s.spread_lm_p),
+        ("spread_stat_studentized", s.spread_lm_studentized),
+        ("spread_p_studentized", s.spread_lm_studentized_p),
+        ("durbin_watson", r.durbin_watson),
+        ("lag1_autocorrelation", r.lag1_autocorrelation),
+        ("serial_p_low", r.p_positive_low),
+        ("serial_p_high", r.p_positive_high),
+    ] {
+        o.f(&format!("diag.stream.{k}"), v);
+    }
+    let n = 50;
+    let xs: Vec<f64> = d[..n].iter().map(|p| p[0]).collect();
+    let ys: Vec<f64> = d[..n].iter().map(|p| p[1]).collect();
+    let mut acc = pf_core::LeanMoments::new();
+    acc.extend(&xs, &ys).unwrap();
+    let f = acc.fit().unwrap();
+    let mut res = vec![0.0; n];
+    pf_core::diag::residuals_into(&xs, &ys, &f, &mut res).unwrap();
+    for (k, v) in res.iter().enumerate() {
+        o.f(&format!("diag.resid{k}"), *v);
+    }
+    let mut inf = vec![pf_core::diag::PointInfluence::default(); n];
+    pf_core::diag::influence_into(&xs, &ys, &f, &mut inf).unwrap();
+    for (k, p) in inf.iter().enumerate() {
+        o.f(&format!("diag.inf{k}.leverage"), p.leverage);
+        o.f(&format!("diag.inf{k}.deleted_t"), p.deleted_t);
+        o.f(&format!("diag.inf{k}.cooks_distance"), p.cooks_distance);
+        o.n(&format!("diag.inf{k}.flags"), p.flags as u64);
+    }
+    let sw = pf_core::diag::shapiro_wilk(&res).unwrap();
+    o.f("diag.sw.statistic", sw.w);
+    o.f("diag.sw.p_value", sw.p_value);
+    let ad = pf_core::diag::anderson_darling(&res).unwrap();
+    o.f("diag.ad.statistic", ad.a2);
+    o.f("diag.ad.statistic_modified", ad.a2_modified);
+    o.f("diag.ad.p_value", ad.p_value);
+}
+
 fn main() {
     let d = data(1000);
     let mut o = Out(Vec::new());
@@ -434,6 +492,7 @@ fn main() {
     o.f("full.y_range.max", hi);
     model_scenarios(&mut o, &d);
     calib_scenarios(&mut o, &d);
+    diag_scenarios(&mut o, &d);
 
     println!("data {}", d.len());
     for p in &d {

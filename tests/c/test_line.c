@@ -651,6 +651,80 @@ static void calib_scenarios(const double *xs, const double *ys, size_t n) {
     CHECK_STATUS(pf_line_free(l), PF_OK);
 }
 
+/* ---- diagnostics parity ---- */
+
+static void diag_scenarios(const double *xs, const double *ys, size_t n) {
+    pf_line *full = NULL, *lean = NULL;
+    pf_stream_checks c;
+    pf_fitted_line f;
+    double res[50];
+    pf_point_influence inf[50];
+    pf_normality t;
+    char name[64];
+    size_t i, m = 50;
+
+    if (n < m) {
+        failures++;
+        return;
+    }
+    CHECK_STATUS(pf_line_new(PF_TIER_FULL, &full), PF_OK);
+    for (i = 0; i < n; i++) CHECK_STATUS(pf_line_push(full, xs[i], ys[i]), PF_OK);
+    CHECK_STATUS(pf_line_stream_checks(full, &c), PF_OK);
+    pn("diag.stream", "count", c.count);
+    pf("diag.stream", "resid_mean", c.resid_mean);
+    pf("diag.stream", "resid_sq_sum", c.resid_sq_sum);
+    pf("diag.stream", "resid_cube_sum", c.resid_cube_sum);
+    pf("diag.stream", "resid_fourth_sum", c.resid_fourth_sum);
+    pf("diag.stream", "resid_sq_dx_sum", c.resid_sq_dx_sum);
+    pf("diag.stream", "skewness", c.skewness);
+    pf("diag.stream", "kurtosis", c.kurtosis);
+    pf("diag.stream", "jarque_bera", c.jarque_bera);
+    pf("diag.stream", "jarque_bera_p", c.jarque_bera_p);
+    pf("diag.stream", "spread_stat", c.spread_stat);
+    pf("diag.stream", "spread_p", c.spread_p);
+    pf("diag.stream", "spread_stat_studentized", c.spread_stat_studentized);
+    pf("diag.stream", "spread_p_studentized", c.spread_p_studentized);
+    pf("diag.stream", "durbin_watson", c.durbin_watson);
+    pf("diag.stream", "lag1_autocorrelation", c.lag1_autocorrelation);
+    pf("diag.stream", "serial_p_low", c.serial_p_low);
+    pf("diag.stream", "serial_p_high", c.serial_p_high);
+
+    CHECK_STATUS(pf_line_new(PF_TIER_LEAN, &lean), PF_OK);
+    CHECK_STATUS(pf_line_stream_checks(lean, &c), PF_ERR_NEEDS_FULL_TIER);
+    CHECK_STATUS(pf_line_extend(lean, xs, ys, m), PF_OK);
+    CHECK_STATUS(pf_line_fit(lean, 0, &f), PF_OK);
+    CHECK_STATUS(pf_fitted_line_residuals(&f, xs, ys, m, res, m - 1), PF_ERR_DIAG_OUTPUT_TOO_SHORT);
+    {
+        pf_fitted_line origin;
+        CHECK_STATUS(pf_line_fit(lean, PF_FIT_THROUGH_ORIGIN, &origin), PF_OK);
+        CHECK_STATUS(pf_fitted_line_residuals(&origin, xs, ys, m, res, m),
+                     PF_ERR_DIAG_THROUGH_ORIGIN);
+    }
+    CHECK_STATUS(pf_fitted_line_residuals(&f, xs, ys, m, res, m), PF_OK);
+    for (i = 0; i < m; i++) {
+        snprintf(name, sizeof name, "resid%lu", (unsigned long)i);
+        pf("diag", name, res[i]);
+    }
+    CHECK_STATUS(pf_fitted_line_influence(&f, xs, ys, m, inf, m - 1), PF_ERR_DIAG_OUTPUT_TOO_SHORT);
+    CHECK_STATUS(pf_fitted_line_influence(&f, xs, ys, m, inf, m), PF_OK);
+    for (i = 0; i < m; i++) {
+        snprintf(name, sizeof name, "diag.inf%lu", (unsigned long)i);
+        pf(name, "leverage", inf[i].leverage);
+        pf(name, "deleted_t", inf[i].deleted_t);
+        pf(name, "cooks_distance", inf[i].cooks_distance);
+        pn(name, "flags", inf[i].flags);
+    }
+    CHECK_STATUS(pf_shapiro_wilk(res, m, &t), PF_OK);
+    pf("diag.sw", "statistic", t.statistic);
+    pf("diag.sw", "p_value", t.p_value);
+    CHECK_STATUS(pf_anderson_darling(res, m, &t), PF_OK);
+    pf("diag.ad", "statistic", t.statistic);
+    pf("diag.ad", "statistic_modified", t.statistic_modified);
+    pf("diag.ad", "p_value", t.p_value);
+    CHECK_STATUS(pf_line_free(lean), PF_OK);
+    CHECK_STATUS(pf_line_free(full), PF_OK);
+}
+
 static double from_bits(uint64_t b) {
     double v;
     memcpy(&v, &b, sizeof v);
@@ -719,6 +793,7 @@ static void test_parity(const char *path) {
     CHECK_STATUS(pf_line_free(full), PF_OK);
     model_scenarios(xs, ys, ws, n);
     calib_scenarios(xs, ys, n);
+    diag_scenarios(xs, ys, n);
 
     if (next_expect != n_expect) {
         fprintf(stderr, "parity: %lu Rust values never computed in C\n",

@@ -205,6 +205,36 @@ int main(void) {
         (void)lu;
     }
 
+    /* ---- diagnostics ---- */
+    {
+        pf_stream_checks sc;
+        pf_point_influence pi[4];
+        pf_normality nt;
+        double rr[4];
+        EXPECT(pf_line_stream_checks(NULL, &sc), NP);
+        EXPECT(pf_line_stream_checks(l, NULL), NP);
+        EXPECT(pf_fitted_line_residuals(NULL, xs, ys, 4, rr, 4), NP);
+        EXPECT(pf_fitted_line_residuals(&fit, NULL, ys, 4, rr, 4), NP);
+        EXPECT(pf_fitted_line_residuals(&fit, xs, NULL, 4, rr, 4), NP);
+        EXPECT(pf_fitted_line_residuals(&fit, xs, ys, 4, NULL, 4), NP);
+        EXPECT(pf_fitted_line_residuals(&fit, NULL, NULL, 0, rr, 0), NP);
+        EXPECT(pf_fitted_line_residuals(&fit, xs, ys, 4, rr, 3), PF_ERR_DIAG_OUTPUT_TOO_SHORT);
+        EXPECT(pf_fitted_line_residuals(&fit, xs, ys, 0, rr, 4), PF_ERR_EMPTY_INPUT);
+        EXPECT(pf_fitted_line_residuals(&fit, xs, ys, SIZE_MAX, rr, 4), PF_ERR_BAD_ARGUMENT);
+        EXPECT(pf_fitted_line_influence(NULL, xs, ys, 4, pi, 4), NP);
+        EXPECT(pf_fitted_line_influence(&fit, NULL, ys, 4, pi, 4), NP);
+        EXPECT(pf_fitted_line_influence(&fit, xs, NULL, 4, pi, 4), NP);
+        EXPECT(pf_fitted_line_influence(&fit, xs, ys, 4, NULL, 4), NP);
+        EXPECT(pf_fitted_line_influence(&fit, xs, ys, 4, pi, 3), PF_ERR_DIAG_OUTPUT_TOO_SHORT);
+        EXPECT(pf_shapiro_wilk(NULL, 4, &nt), NP);
+        EXPECT(pf_shapiro_wilk(NULL, 0, &nt), NP);
+        EXPECT(pf_shapiro_wilk(xs, 4, NULL), NP);
+        EXPECT(pf_shapiro_wilk(xs, SIZE_MAX, &nt), PF_ERR_BAD_ARGUMENT);
+        EXPECT(pf_anderson_darling(NULL, 4, &nt), NP);
+        EXPECT(pf_anderson_darling(xs, 4, NULL), NP);
+        EXPECT(pf_anderson_darling(misaligned, 2, &nt), PF_ERR_MISALIGNED);
+    }
+
     /* ---- model accumulator ---- */
     {
         pf_model *mm = NULL, *mu = NULL;
