@@ -17,6 +17,7 @@ pub mod scenario;
 use plumbfit::calib::{
     weighted_line, CalibError, FiellerSet, LevelSet, Reading, SigmaSource, VarianceShape,
 };
+use plumbfit::diag::{stream_checks, DiagError, PointInfluence, ResidualSet};
 use plumbfit::{FullMoments, LineError, LineFit, MomentsError, WeightMeaning};
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
@@ -33,6 +34,8 @@ pub enum DemoError {
     Line(LineError),
     /// The accumulator refused a reading.
     Moments(MomentsError),
+    /// A residual diagnostic refused its input.
+    Diag(DiagError),
     /// Drawing the charts failed.
     Chart(String),
     /// Writing the report failed.
@@ -45,6 +48,7 @@ impl std::fmt::Display for DemoError {
             DemoError::Calib(e) => write!(f, "calibration: {e} (code {})", e.code()),
             DemoError::Line(e) => write!(f, "line fit: {e} (code {})", e.code()),
             DemoError::Moments(e) => write!(f, "accumulator: {e} (code {})", e.code()),
+            DemoError::Diag(e) => write!(f, "diagnostics: {e} (code {})", e.code()),
             DemoError::Chart(e) => write!(f, "chart: {e}"),
             DemoError::Io(e) => write!(f, "report file: {e}"),
         }
@@ -66,6 +70,11 @@ impl From<LineError> for DemoError {
 impl From<MomentsError> for DemoError {
     fn from(e: MomentsError) -> Self {
         DemoError::Moments(e)
+    }
+}
+impl From<DiagError> for DemoError {
+    fn from(e: DiagError) -> Self {
+        DemoError::Diag(e)
     }
 }
 impl From<std::io::Error> for DemoError {
@@ -263,10 +272,37 @@ pub fn run(out_dir: &Path) -> Result<DemoOutcome, DemoError> {
         "    largest residual {:+.2} residual sd (at {:.0} umol/mol)",
         worst.1, worst.0
     );
+    // From the accumulator alone (no stored readings): shape, spread and
+    // serial correlation of the residuals.
+    let sc_acc = stream_checks(&acc)?;
+    let _ = writeln!(
+        w,
+        "    from the moments: Jarque-Bera p = {:.3}, spread vs level (Koenker) p = {:.4},",
+        sc_acc.shape.jarque_bera_p, sc_acc.shape.spread_lm_studentized_p
+    );
+    let _ = writeln!(
+        w,
+        "                      Durbin-Watson {:.3} (p for positive correlation in [{:.3}, {:.3}])",
+        sc_acc.serial.durbin_watson, sc_acc.serial.p_positive_low, sc_acc.serial.p_positive_high
+    );
+    // From the retained readings: normality and influence.
+    let xs_r: Vec<f64> = sc.standards.iter().map(|r| r.conc).collect();
+    let ys_r: Vec<f64> = sc.standards.iter().map(|r| r.signal).collect();
+    let kept = ResidualSet::new(&xs_r, &ys_r, &fit)?;
+    let sw = kept.shapiro_wilk()?;
+    let flagged = kept
+        .influence()?
+        .iter()
+        .filter(|p| p.has(PointInfluence::RESIDUAL_OVER_3 | PointInfluence::COOK_OVER_1))
+        .count();
+    let _ = writeln!(
+        w,
+        "    from the readings: Shapiro-Wilk W = {:.4}, p = {:.3}; {} reading(s) with |t| > 3 or Cook's D > 1",
+        sw.w, sw.p_value, flagged
+    );
 
     // 4. Weighted calibration: variance proportional to the mean signal.
-    let xs: Vec<f64> = sc.standards.iter().map(|r| r.conc).collect();
-    let ys: Vec<f64> = sc.standards.iter().map(|r| r.signal).collect();
+    let (xs, ys) = (xs_r, ys_r);
     let shape = VarianceShape::MeanPower { power: 1.0 };
     let wc = weighted_line(&xs, &ys, shape, WeightMeaning::Relative, 1.0)?;
     let _ = writeln!(

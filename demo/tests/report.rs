@@ -294,6 +294,8 @@ fn demo_writes_a_well_formed_report_with_both_charts() {
         "INVENTED",
         "lack of fit",
         "Mandel",
+        "Durbin-Watson",
+        "Shapiro-Wilk",
         "unknown samples",
         "Fieller",
         "detect",
