@@ -3,8 +3,9 @@
 //! * A 1-D, C-contiguous, native-byte-order `float64` ndarray is borrowed:
 //!   the core reads NumPy's buffer directly, nothing is copied.
 //! * Anything else that NumPy can turn into a 1-D real array (lists,
-//!   tuples, integer/bool/float32 arrays, strided views, big-endian data) is
-//!   converted once into a new contiguous `float64` buffer.
+//!   tuples, integer/bool/float32 arrays, strided views, big-endian or
+//!   misaligned data) is converted once into a new contiguous `float64`
+//!   buffer.
 //! * Complex, object, string and other non-real dtypes raise `TypeError`
 //!   naming the dtype; arrays that are not 1-D raise `ValueError` with the
 //!   shape.
@@ -20,6 +21,7 @@ use numpy::{
 use pyo3::exceptions::{PyTypeError, PyValueError};
 use pyo3::prelude::*;
 use pyo3::sync::PyOnceLock;
+use pyo3::types::PyDict;
 use std::sync::atomic::{AtomicU64, Ordering};
 
 static CONVERSIONS: AtomicU64 = AtomicU64::new(0);
@@ -94,19 +96,29 @@ fn convert<'py>(obj: &Bound<'py, PyAny>, name: &str, ndim: usize) -> PyResult<Bo
         )));
     }
     CONVERSIONS.fetch_add(1, Ordering::Relaxed);
-    let f64_dtype = numpy::dtype::<f64>(py);
-    numpy_attr(py, "ascontiguousarray")?.call1((arr, f64_dtype))
+    // `numpy.array(..., copy=True)` always gives a fresh, aligned,
+    // C-contiguous buffer (`ascontiguousarray` may pass a misaligned
+    // buffer through, e.g. one deserialized from a network frame).
+    let kwargs = PyDict::new(py);
+    kwargs.set_item("dtype", numpy::dtype::<f64>(py))?;
+    kwargs.set_item("order", "C")?;
+    kwargs.set_item("copy", true)?;
+    numpy_attr(py, "array")?.call((arr,), Some(&kwargs))
 }
 
 /// Reads a 1-D argument; see the module docs for what is copied.
 pub fn vector<'py>(obj: &Bound<'py, PyAny>, name: &str) -> PyResult<Vector<'py>> {
     if let Ok(a) = obj.cast::<PyArray1<f64>>() {
-        let ro = readonly(a, name)?;
-        if a.is_c_contiguous() {
-            return Ok(Vector::Array(ro));
+        if a.is_aligned() {
+            let ro = readonly(a, name)?;
+            if a.is_c_contiguous() {
+                return Ok(Vector::Array(ro));
+            }
+            CONVERSIONS.fetch_add(1, Ordering::Relaxed);
+            return Ok(Vector::Gathered(ro.as_array().iter().copied().collect()));
         }
-        CONVERSIONS.fetch_add(1, Ordering::Relaxed);
-        return Ok(Vector::Gathered(ro.as_array().iter().copied().collect()));
+        // Misaligned float64 (possible for buffers from byte streams): let
+        // NumPy make an aligned copy below.
     }
     let converted = convert(obj, name, 1)?;
     let a = converted.cast::<PyArray1<f64>>()?;
@@ -115,10 +127,9 @@ pub fn vector<'py>(obj: &Bound<'py, PyAny>, name: &str) -> PyResult<Vector<'py>>
 
 /// Reads a 2-D argument as a C-contiguous (row-major) float64 matrix,
 /// borrowed when it already is one.
-#[allow(dead_code)] // used by the model accumulator
 pub fn matrix<'py>(obj: &Bound<'py, PyAny>, name: &str) -> PyResult<PyReadonlyArray2<'py, f64>> {
     if let Ok(a) = obj.cast::<PyArray2<f64>>() {
-        if a.is_c_contiguous() {
+        if a.is_c_contiguous() && a.is_aligned() {
             return readonly(a, name);
         }
     }

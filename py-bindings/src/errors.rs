@@ -199,7 +199,7 @@ pub struct Failure {
 }
 
 impl Failure {
-    fn new(kind: Kind, code: u16, message: String, index: Option<usize>) -> Self {
+    pub(crate) fn new(kind: Kind, code: u16, message: String, index: Option<usize>) -> Self {
         Failure {
             kind,
             code,

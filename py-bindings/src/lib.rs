@@ -4,8 +4,10 @@
 //! releases the GIL for large inputs and maps errors (see `errors`).
 
 mod arrays;
+mod calib;
 mod errors;
 mod line;
+mod model;
 
 use pyo3::prelude::*;
 
@@ -17,6 +19,16 @@ fn _native(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_class::<line::LineFit>()?;
     m.add_class::<line::Interval>()?;
     m.add_class::<line::AnovaTable>()?;
+    m.add_class::<calib::InverseResult>()?;
+    m.add_class::<calib::CalibratedValue>()?;
+    m.add_class::<calib::SigmaLimits>()?;
+    m.add_class::<calib::DecisionLimits>()?;
+    m.add_class::<calib::LackOfFitTest>()?;
+    m.add_class::<calib::QuadraticCheck>()?;
+    m.add_class::<calib::ReplicateLevels>()?;
+    m.add_class::<model::ModelAccumulator>()?;
+    m.add_class::<model::ModelFit>()?;
+    m.add_function(wrap_pyfunction!(model::fit_polynomial, m)?)?;
     m.add_function(wrap_pyfunction!(arrays::_conversion_count, m)?)?;
     m.add("__version__", env!("CARGO_PKG_VERSION"))?;
     m.add("GIL_RELEASE_PAIRS", line::GIL_RELEASE_PAIRS)?;

@@ -335,6 +335,17 @@ pub struct Interval {
     upper: f64,
 }
 
+impl Interval {
+    pub(crate) fn new(center: f64, se: f64, lower: f64, upper: f64) -> Self {
+        Interval {
+            center,
+            se,
+            lower,
+            upper,
+        }
+    }
+}
+
 impl From<CoreInterval> for Interval {
     fn from(i: CoreInterval) -> Self {
         Interval {

@@ -57,8 +57,9 @@ def test_converted_inputs_are_counted_and_tracked() -> None:
         lambda a: (a * 4).astype(np.int32),
         lambda a: np.repeat(a, 2)[::2],  # strided view
         lambda a: a.astype(">f8"),  # non-native byte order
+        lambda a: np.frombuffer(b"\0" + a.tobytes(), dtype=np.float64, offset=1),
     ],
-    ids=["list", "tuple", "float32", "int32", "strided", "big-endian"],
+    ids=["list", "tuple", "float32", "int32", "strided", "big-endian", "misaligned"],
 )
 def test_other_array_likes_are_converted(make: object) -> None:
     base = np.array([0.0, 0.25, 0.5, 1.0, 1.25, 2.0, 2.5, 3.0, 4.0, 5.0])
