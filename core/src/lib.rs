@@ -7,8 +7,20 @@
 //! * [`moments`]: the pair-moment accumulator ([`PairMoments`]) in a lean
 //!   tier (second moments) and a full tier (co-moments to order 4, lag-1
 //!   difference sums, extremes). Push, extend, merge and forget; no heap.
-//! * [`line`]: the straight-line fit and its inference ([`LineFit`]).
+//! * [`line`](mod@line): the straight-line fit and its inference ([`LineFit`]).
+//! * [`model`]: streaming least squares for p-parameter linear and
+//!   polynomial models (double-double Givens; caller storage available).
+//! * [`calib`]: inverse prediction with Fieller intervals, uncertainty of a
+//!   calibrated value, detection and quantitation limits, lack of fit,
+//!   Mandel's linearity check, weighted calibration.
+//! * [`diag`]: residual diagnostics from the accumulator alone and from
+//!   retained data.
+//! * [`state`]: the versioned, checksummed byte format for every accumulator.
 //! * [`dd`]: double-double arithmetic used where double is not enough.
+//!
+//! # When not to use it
+//! Nonlinear models, large sparse designs and p above
+//! [`model::MAX_PARAMS`] are out of scope.
 //!
 //! # Precision
 //! Moments are accumulated about a provisional line fitted to the first few
@@ -58,7 +70,9 @@ pub mod model;
 pub mod moments;
 pub mod state;
 
+pub use calib::CalibError;
 pub use line::{FitOptions, LineError, LineFit, WeightMeaning};
+pub use model::{ModelError, ModelFit, ModelMoments};
 pub use moments::{Full, FullMoments, Lean, LeanMoments, MomentsError, PairMoments, Tier};
 
 // The README's Rust snippets are compiled and run as doc tests.
