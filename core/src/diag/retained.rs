@@ -52,15 +52,15 @@ impl Refit {
         if fit.approximate {
             return Err(DiagError::Forgotten);
         }
-        let n = xs.len() as f64;
-        if fit.weight_sum != n || (fit.effective_count - n).abs() > 1e-9 * n {
-            return Err(DiagError::Weighted);
-        }
         if fit.count != xs.len() as u64 {
             return Err(DiagError::FitMismatch {
                 fit_count: fit.count,
                 data_len: xs.len(),
             });
+        }
+        let n = xs.len() as f64;
+        if fit.weight_sum != n || (fit.effective_count - n).abs() > 1e-9 * n {
+            return Err(DiagError::Weighted);
         }
         Ok(())
     }
@@ -344,7 +344,10 @@ fn point_influence(
     out.studentized = r;
     out.cooks_distance = r * r * h / (pf * gap);
     let sse_i = deleted_sse.unwrap_or(sse - e * e / gap);
-    if sse_i > 0.0 {
+    // A deleted SSE at the rounding level of the residuals (each carries a
+    // few ε of the largest) means the other points are exactly collinear.
+    let floor = 1e3 * nf * f64::EPSILON * f64::EPSILON * sse;
+    if sse_i > floor {
         let s2_i = sse_i / (nf - pf - 1.0);
         let t = e / libm::sqrt(s2_i * gap);
         out.deleted_t = t;
@@ -376,17 +379,11 @@ fn point_influence(
 /// recomputed directly.
 const DELETED_SSE_RECOMPUTE: f64 = 1e-6;
 
-/// `SSE` of the line through all pairs but `skip`, in the refit's frame
-/// (its own small line refitted by two passes, residuals summed directly).
-fn deleted_sse(r: &Refit, xs: &[f64], ys: &[f64], skip: usize) -> f64 {
-    let m = (xs.len() - 1) as f64;
-    let it = || {
-        xs.iter()
-            .zip(ys)
-            .enumerate()
-            .filter(move |(i, _)| *i != skip)
-            .map(|(_, (&x, &y))| (r.centred(x), r.resid(x, y)))
-    };
+/// `SSE` of the line through all points but one, from the pairs
+/// `(x − x̄, e)` of the other points: the deleted fit differs from the full
+/// one by the small line fitted to those residuals, refitted by two passes
+/// with its residuals summed directly (no cancellation).
+fn deleted_sse_from<I: Iterator<Item = (f64, f64)>>(it: impl Fn() -> I, m: f64) -> f64 {
     let (sc, se) = it().fold((0.0, 0.0), |(a, b), (c, e)| (a + c, b + e));
     let (mc, me) = (sc / m, se / m);
     let (sxx, sxe) = it().fold((0.0, 0.0), |(a, b), (c, e)| {
@@ -401,6 +398,17 @@ fn deleted_sse(r: &Refit, xs: &[f64], ys: &[f64], skip: usize) -> f64 {
         t * t
     })
     .sum()
+}
+
+fn deleted_sse(r: &Refit, xs: &[f64], ys: &[f64], skip: usize) -> f64 {
+    let it = || {
+        xs.iter()
+            .zip(ys)
+            .enumerate()
+            .filter(move |(i, _)| *i != skip)
+            .map(|(_, (&x, &y))| (r.centred(x), r.resid(x, y)))
+    };
+    deleted_sse_from(it, (xs.len() - 1) as f64)
 }
 
 /// Writes the influence measures of every pair into `out` (no allocation).
@@ -697,10 +705,8 @@ impl ResidualSet {
         Ok(out)
     }
 
-    /// `SSE` without point `skip`, refitting the small line left in the
-    /// residuals (their own fit is exactly the deleted fit's difference).
+    /// `SSE` without point `skip` (see [`deleted_sse_from`]).
     fn deleted_sse(&self, skip: usize) -> f64 {
-        let m = (self.count() - 1) as f64;
         let it = || {
             self.centred_x
                 .iter()
@@ -709,20 +715,7 @@ impl ResidualSet {
                 .filter(move |(i, _)| *i != skip)
                 .map(|(_, (&c, &e))| (c, e))
         };
-        let (sc, se) = it().fold((0.0, 0.0), |(a, b), (c, e)| (a + c, b + e));
-        let (mc, me) = (sc / m, se / m);
-        let (sxx, sxe) = it().fold((0.0, 0.0), |(a, b), (c, e)| {
-            (a + (c - mc) * (c - mc), b + (c - mc) * (e - me))
-        });
-        if !(sxx > 0.0) {
-            return 0.0;
-        }
-        let g = sxe / sxx;
-        it().map(|(c, e)| {
-            let t = (e - me) - g * (c - mc);
-            t * t
-        })
-        .sum()
+        deleted_sse_from(it, (self.count() - 1) as f64)
     }
 
     /// Shapiro–Wilk test of the residuals ([`shapiro_wilk`]).
