@@ -1,7 +1,7 @@
 """Residual diagnostics of plumbfit compared with reference libraries.
 
 plumbfit's values come from ``plumbfit-diag-reference`` (a Rust binary in
-this folder) as JSON for 23 invented, fixed-seed data sets: normal, heavy
+this folder) as JSON for 24 invented, fixed-seed data sets: normal, heavy
 tailed (Student t3, Cauchy, Laplace), skewed, light tailed, offsets up to
 1e9, near-perfect fits, heteroscedastic, serially correlated, curved, an
 outlier, a high-leverage point, and a point whose deletion leaves an almost
@@ -378,6 +378,23 @@ def test_diagnostics_match_references(data):
                   tol_lib, name, f"scipy {scipy.__version__} anderson")
         fac = 1 + 0.75 / n + 2.25 / n**2
         check("anderson A2*", ad["a2_modified"], a2_log * fac, TOL, name, "A² × (1 + 0.75/n + 2.25/n²)")
+        # The p value formula of statsmodels' normal_ad (D'Agostino & Stephens
+        # 1986) applied to the log_ndtr statistic.
+        a = a2_log * fac
+        if a < 0.2:
+            p_ref = 1 - math.exp(-13.436 + 101.14 * a - 223.73 * a**2)
+        elif a < 0.34:
+            p_ref = 1 - math.exp(-8.318 + 42.796 * a - 59.938 * a**2)
+        elif a < 0.6:
+            p_ref = math.exp(0.9177 - 4.279 * a - 1.38 * a**2)
+        elif a <= 13:
+            p_ref = math.exp(1.2937 - 5.709 * a + 0.0186 * a**2)
+        else:
+            p_ref = 0.0
+        if p_ref > 0:
+            check("anderson p (log_ndtr)", ad["p"], p_ref, TOL, name, "normal_ad's p formula on the log_ndtr A²", p=True)
+        else:
+            assert ad["p"] == 0.0, name
         if p_sm > 0:
             check("anderson p (statsmodels, to its log1p limit)", ad["p"], float(p_sm), tol_lib, name, f"statsmodels {statsmodels.__version__} normal_ad",
                   p=True)
