@@ -337,3 +337,19 @@ fn model_influence_matches_line_influence() {
         DiagError::ModelMismatch { expected: 2 }
     );
 }
+
+#[test]
+fn statistics_without_p_equal_the_full_checks() {
+    let (x, y) = data(40);
+    let (acc, _) = fit(&x, &y);
+    let full = diag::stream_checks(&acc).unwrap();
+    let quick = diag::stream_statistics(&acc).unwrap();
+    assert_eq!(quick.shape, full.shape);
+    assert_eq!(quick.serial.durbin_watson, full.serial.durbin_watson);
+    assert_eq!(
+        quick.serial.lag1_autocorrelation,
+        full.serial.lag1_autocorrelation
+    );
+    assert_eq!(quick.serial.method, SerialMethod::Unavailable);
+    assert_eq!(full.serial.method, SerialMethod::ExactBounds);
+}

@@ -58,7 +58,7 @@ pub use retained::{
     versus_fitted_into, versus_x_into, PointInfluence, ResidualSet,
 };
 pub use serial::EXACT_SERIAL_MAX_N;
-pub use stream::stream_checks;
+pub use stream::{stream_checks, stream_statistics};
 
 /// Errors from the residual diagnostics. Inputs are never modified.
 ///
@@ -240,8 +240,9 @@ pub enum SerialMethod {
     /// Normal approximations of the bounding statistics (accumulator beyond
     /// [`EXACT_SERIAL_MAX_N`]).
     NormalBounds,
-    /// Too few points for a p value (n < 4); only the statistic is given,
-    /// and the p value range is `[0, 1]`.
+    /// No p value: too few points (n < 4), or not requested
+    /// ([`stream_statistics`]); only the statistic is given and the p value
+    /// range is `[0, 1]`.
     Unavailable,
 }
 

@@ -35,6 +35,20 @@ use crate::moments::FullMoments;
 /// assert_eq!(diag::stream_checks(&acc), Err(diag::DiagError::Weighted));
 /// ```
 pub fn stream_checks(acc: &FullMoments) -> Result<StreamChecks, DiagError> {
+    let mut out = stream_statistics(acc)?;
+    let s = out.serial;
+    out.serial = stream_serial(s.count, s.durbin_watson, s.lag1_autocorrelation)?;
+    Ok(out)
+}
+
+/// The statistics of [`stream_checks`] without the Durbin–Watson p value
+/// bounds (constant time, no allocation: for checking after every reading).
+/// `serial.method` is [`SerialMethod::Unavailable`] and the p value range
+/// is `[0, 1]`; every other field equals [`stream_checks`]'s.
+///
+/// # Errors
+/// As [`stream_checks`], except [`DiagError::NoConvergence`].
+pub fn stream_statistics(acc: &FullMoments) -> Result<StreamChecks, DiagError> {
     if acc.is_weighted() {
         return Err(DiagError::Weighted);
     }
@@ -77,10 +91,17 @@ pub fn stream_checks(acc: &FullMoments) -> Result<StreamChecks, DiagError> {
     };
     let (e1, en) = (resid(h.first), resid(h.last));
     let lag1 = (2.0 * s2 - e1 * e1 - en * en - sdiff) / (2.0 * s2);
-    let serial = stream_serial(n, dw, lag1)?;
     if !(dw.is_finite() && lag1.is_finite()) {
         return Err(DiagError::Overflow);
     }
+    let serial = SerialCheck {
+        count: n,
+        durbin_watson: dw,
+        lag1_autocorrelation: lag1,
+        p_positive_low: 0.0,
+        p_positive_high: 1.0,
+        method: SerialMethod::Unavailable,
+    };
     Ok(StreamChecks { shape, serial })
 }
 
