@@ -218,7 +218,8 @@ pub struct ResidualShape {
     /// Upper tail of χ²(1) at [`spread_lm`](Self::spread_lm).
     pub spread_lm_p: f64,
     /// Koenker's studentized form `n·R²` of the same regression (Koenker
-    /// 1981); robust to non-normal errors.
+    /// 1981); robust to non-normal errors. 0 when every `e²` is equal (the
+    /// auxiliary regression then has nothing to explain).
     pub spread_lm_studentized: f64,
     /// Upper tail of χ²(1) at
     /// [`spread_lm_studentized`](Self::spread_lm_studentized).
