@@ -9,7 +9,6 @@ use plumbfit::calib::{
 };
 use pyo3::prelude::*;
 use pyo3::types::PyDict;
-use pyo3::IntoPyObjectExt;
 
 impl From<CalibError> for Failure {
     fn from(e: CalibError) -> Self {
@@ -33,38 +32,6 @@ impl From<CalibError> for Failure {
         };
         Failure::new(kind, code, msg, index)
     }
-}
-
-/// Defines a frozen result class with read-only attributes, `to_dict()`
-/// and a `repr`.
-macro_rules! record {
-    ($(#[$meta:meta])* $name:ident { $($field:ident: $ty:ty => $doc:literal,)* }) => {
-        $(#[$meta])*
-        #[pyclass(module = "plumbfit", frozen, from_py_object)]
-        #[derive(Clone)]
-        pub struct $name {
-            $( #[doc = $doc] #[pyo3(get)] pub $field: $ty, )*
-        }
-
-        #[pymethods]
-        impl $name {
-            /// All attributes as a dict.
-            fn to_dict<'py>(&self, py: Python<'py>) -> PyResult<Bound<'py, PyDict>> {
-                let d = PyDict::new(py);
-                $( d.set_item(stringify!($field), self.$field.clone())?; )*
-                Ok(d)
-            }
-
-            fn __repr__(&self, py: Python<'_>) -> PyResult<String> {
-                let parts: Vec<String> = vec![$(format!(
-                    "{}={}",
-                    stringify!($field),
-                    self.$field.clone().into_bound_py_any(py)?.repr()?
-                )),*];
-                Ok(format!("{}({})", stringify!($name), parts.join(", ")))
-            }
-        }
-    };
 }
 
 record! {

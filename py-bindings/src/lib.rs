@@ -3,8 +3,12 @@
 //! Every number comes from the core crate; this layer converts arguments,
 //! releases the GIL for large inputs and maps errors (see `errors`).
 
+#[macro_use]
+mod record;
+
 mod arrays;
 mod calib;
+mod diag;
 mod errors;
 mod line;
 mod model;
@@ -26,6 +30,13 @@ fn _native(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_class::<calib::LackOfFitTest>()?;
     m.add_class::<calib::QuadraticCheck>()?;
     m.add_class::<calib::ReplicateLevels>()?;
+    m.add_class::<diag::ResidualChecks>()?;
+    m.add_class::<diag::ShapiroWilkTest>()?;
+    m.add_class::<diag::AndersonDarlingTest>()?;
+    m.add_class::<diag::RetainedResiduals>()?;
+    m.add_function(wrap_pyfunction!(diag::shapiro_wilk, m)?)?;
+    m.add_function(wrap_pyfunction!(diag::anderson_darling, m)?)?;
+    m.add("INFLUENCE_FLAGS", diag::influence_flags(m.py())?)?;
     m.add_class::<model::ModelAccumulator>()?;
     m.add_class::<model::ModelFit>()?;
     m.add_function(wrap_pyfunction!(model::fit_polynomial, m)?)?;
