@@ -67,10 +67,10 @@
 //! Double-double costs about ten times plain double per operation. The
 //! block paths ([`ModelMoments::extend_rows`], `extend_powers`) run several
 //! independent factors side by side so the compiler can vectorise them,
-//! then merge. Measured at `p = 8` on one core of a shared AMD EPYC: about
-//! 1.4 million rows/s for a baseline x86-64 build (SSE2, no FMA) and about
-//! 7 million rows/s when built for `x86-64-v3` (AVX2 and FMA; the FMA path
-//! needs the `std` feature for `f64::mul_add`).
+//! then merge. Measured at `p = 8` (CPU time of one core of a heavily
+//! shared AMD EPYC): 1.4–1.7 million rows/s for a baseline x86-64 build
+//! (SSE2, no FMA) and 5.5–7 million rows/s when built for `x86-64-v3`
+//! (AVX2 and FMA; the FMA path needs the `std` feature for `f64::mul_add`).
 //!
 //! # Limits
 //! Values above about 1e150 in magnitude (so that squared terms pass
