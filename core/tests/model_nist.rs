@@ -3,8 +3,10 @@
 //!
 //! Every dataset is fitted three ways: rows in file order, in reverse order,
 //! and split into three contiguous parts accumulated separately and merged.
-//! Polynomial models use raw powers `x⁰ … x^d` (formed in double-double by
-//! `push_powers`); Longley uses `[1, x1, …, x6]` rows.
+//! Polynomial models use raw powers `x⁰ … x^d` formed in double-double
+//! (`push_powers` row by row in file order and in the merged parts,
+//! `extend_powers` as one block in reverse order); Longley uses
+//! `[1, x1, …, x6]` rows through `extend_rows`.
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly
 
 #[path = "common/nist.rs"]
@@ -107,7 +109,8 @@ enum Order {
     Merged3,
 }
 
-fn accumulate(c: &Certified, data: &[Vec<f64>], idx: &[usize]) -> ModelMoments {
+/// `block` selects the block entry points over row-by-row pushes.
+fn accumulate(c: &Certified, data: &[Vec<f64>], idx: &[usize], block: bool) -> ModelMoments {
     let p = c.beta.len();
     let mut acc = ModelMoments::new(p).unwrap();
     if c.degree.is_some() && !c.intercept {
@@ -115,6 +118,12 @@ fn accumulate(c: &Certified, data: &[Vec<f64>], idx: &[usize]) -> ModelMoments {
         for &r in idx {
             acc.push_row(&[data[r][1]], data[r][0]).unwrap();
         }
+    } else if c.degree.is_some() && block {
+        // Polynomial block: extend_powers (Filip's 82 rows take the
+        // multi-lane path).
+        let xs: Vec<f64> = idx.iter().map(|&r| data[r][1]).collect();
+        let ys: Vec<f64> = idx.iter().map(|&r| data[r][0]).collect();
+        acc.extend_powers(&xs, &ys).unwrap();
     } else if c.degree.is_some() {
         for &r in idx {
             let (y, x) = (data[r][0], data[r][1]);
@@ -147,14 +156,15 @@ fn fit_in_order(c: &Certified, data: &[Vec<f64>], order: Order) -> ModelFit {
         Order::Merged3 => {
             let cut1 = n / 3;
             let cut2 = 2 * n / 3;
-            let mut a = accumulate(c, data, &idx[..cut1]);
-            let b = accumulate(c, data, &idx[cut1..cut2]);
-            let d = accumulate(c, data, &idx[cut2..]);
+            let mut a = accumulate(c, data, &idx[..cut1], false);
+            let b = accumulate(c, data, &idx[cut1..cut2], false);
+            let d = accumulate(c, data, &idx[cut2..], false);
             a.merge(&b).unwrap();
             a.merge(&d).unwrap();
             a
         }
-        _ => accumulate(c, data, &idx),
+        Order::File => accumulate(c, data, &idx, false),
+        Order::Reversed => accumulate(c, data, &idx, true),
     };
     acc.fit(&ModelFitOptions::default()).unwrap()
 }
