@@ -400,7 +400,15 @@ impl<T: Tier> PairMoments<T> {
             *self = t;
             return Ok(());
         }
-        self.update(x, y, w)
+        // Work on a copy: `update` may fix a free slope before it finds an
+        // overflow, and the lag sums are only checked afterwards.
+        let mut t = *self;
+        t.update(x, y, w)?;
+        if !t.is_state_finite() {
+            return Err(MomentsError::Overflow);
+        }
+        *self = t;
+        Ok(())
     }
 
     /// Framed one-pair update (West 1979, plus Pébay for orders 3–4).
@@ -422,9 +430,12 @@ impl<T: Tier> PairMoments<T> {
         let ddv = v - self.mv;
         let mx = self.mx + r * ddx;
         let mv = self.mv + r * ddv;
-        let sxx = self.sxx + w * ddx * (dx - mx);
-        let sxv = self.sxv + w * ddx * (v - mv);
-        let svv = self.svv + w * ddv * (v - mv);
+        // West's `w·ddx·(dx − mx)` goes negative when `r` rounds to 1 (a
+        // pair far heavier than the history); `w·(W/W')·ddx²` cannot.
+        let f = w * (self.w / w_new);
+        let sxx = self.sxx + f * ddx * ddx;
+        let sxv = self.sxv + f * ddx * ddv;
+        let svv = self.svv + f * ddv * ddv;
         let w2 = self.w2 + w * w;
         if !all_finite(&[dx, v, sxx, sxv, svv, w_new, w2]) {
             return Err(MomentsError::Overflow);
@@ -517,6 +528,9 @@ impl<T: Tier> PairMoments<T> {
         t.slope_free = free;
         for p in &staged[..k] {
             t.update(p[0], p[1], p[2])?;
+        }
+        if !t.is_state_finite() {
+            return Err(MomentsError::Overflow);
         }
         *self = t;
         Ok(())
@@ -769,7 +783,12 @@ impl<T: Tier> PairMoments<T> {
                 let last = t.last_pair();
                 let b0 = t.b0;
                 t.combine(&bs.0)?;
-                t.count += b.count;
+                // Counts far beyond any real stream only come from forged
+                // or repeatedly self-merged states; refuse, never wrap.
+                t.count = match t.count.checked_add(b.count) {
+                    Some(c) if c <= 1 << 63 => c,
+                    _ => return Err(MomentsError::Overflow),
+                };
                 t.w2 += b.w2;
                 t.slope_free = t.slope_free && b.slope_free && b.x0 == t.x0;
                 if let (Some(hb), true) = (T::higher(&b.hi), T::IS_FULL) {
@@ -813,7 +832,9 @@ impl<T: Tier> PairMoments<T> {
             copy_higher(&mut s.m, &h);
         }
         let sxv = self.sxv + delta * self.sxx;
-        let svv = self.svv + 2.0 * delta * self.sxv + delta * delta * self.sxx;
+        // Expanding Σ(v + δ·dx)² cancels for a near-perfect fit; the exact
+        // value is non-negative, so a negative result is rounding.
+        let svv = (self.svv + 2.0 * delta * self.sxv + delta * delta * self.sxx).max(0.0);
         s.m[1][1] = sxv;
         s.m[0][2] = svv;
         s.mx = mx;
@@ -863,10 +884,14 @@ impl<T: Tier> PairMoments<T> {
         Ok(())
     }
 
+    /// Whether the state may be committed: every sum finite and the second
+    /// moments non-negative (a negative one only arises from rounding with
+    /// extreme weight ratios and would poison every later result).
     fn is_state_finite(&self) -> bool {
         let base = all_finite(&[
             self.w, self.w2, self.mx, self.mv, self.sxx, self.sxv, self.svv,
-        ]);
+        ]) && self.sxx >= 0.0
+            && self.svv >= 0.0;
         base && T::higher(&self.hi)
             .map(|h| {
                 h.m.iter()
@@ -900,10 +925,17 @@ impl<T: Tier> PairMoments<T> {
     /// The moments as plain numbers (staged pairs included).
     ///
     /// # Errors
-    /// [`MomentsError::Overflow`] if committing the staged pairs overflows.
+    /// [`MomentsError::Overflow`] if committing the staged pairs overflows
+    /// or a moment of `y` overflows.
     pub fn summary(&self) -> Result<MomentSummary, MomentsError> {
         let f = self.flushed()?;
-        Ok(f.summary_flushed())
+        let s = f.summary_flushed();
+        // Converting from the frame to y can overflow (a steep b0 times a
+        // large Sxx) even though the frame itself is finite.
+        if !all_finite(&[s.mean_x, s.mean_y, s.sxx, s.sxy, s.syy]) {
+            return Err(MomentsError::Overflow);
+        }
+        Ok(s)
     }
 
     pub(crate) fn summary_flushed(&self) -> MomentSummary {
