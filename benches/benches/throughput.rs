@@ -93,12 +93,11 @@ fn bench_model(c: &mut Criterion) {
         g.throughput(Throughput::Elements(n as u64));
         g.bench_with_input(BenchmarkId::from_parameter(p), &p, |b, &p| {
             b.iter(|| {
-                let mut m = match ModelMoments::new(p) {
-                    Ok(m) => m,
-                    Err(e) => panic!("model accumulator refused p = {p}: {e}"),
-                };
-                let ok = m.extend_rows(black_box(&rows), black_box(&ys)).is_ok();
-                assert!(ok, "extend_rows refused benchmark data");
+                let m = ModelMoments::new(p).and_then(|mut m| {
+                    m.extend_rows(black_box(&rows), black_box(&ys))?;
+                    Ok(m)
+                });
+                assert!(m.is_ok(), "model accumulator refused benchmark data");
                 m
             })
         });

@@ -12,6 +12,11 @@
 /// Pairs per chunk: two `f64` arrays of this length fit in L1 with room.
 pub(crate) const CHUNK: usize = 512;
 
+/// Pairs per chunk of the unweighted lean kernel. It reads its chunk once
+/// (the two-pass fallback is rare), so a longer chunk only cuts the merge
+/// overhead per pair; 2048 pairs (32 KiB) still re-read from L1/L2.
+pub(crate) const LEAN_CHUNK: usize = 2048;
+
 /// Lost-bits budget of the one-pass lean kernel: a second moment that is
 /// smaller than its uncentred sum by more than this factor is recomputed.
 const CANCEL_LIMIT: f64 = 16.0;
@@ -91,9 +96,10 @@ pub(crate) fn lean_chunk(xs: &[f64], ys: &[f64], ws: Option<&[f64]>, b0: f64) ->
         yc,
         mx,
         mv,
-        sxx,
+        // Exact values are non-negative; a negative one is rounding.
+        sxx: sxx.max(0.0),
         sxv,
-        svv,
+        svv: svv.max(0.0),
         wmin,
     }
 }
@@ -419,9 +425,9 @@ fn two_pass_lean(
         yc,
         mx: mx + cx / s_w,
         mv: mv + cv / s_w,
-        sxx: sxx - cx * cx / s_w,
+        sxx: (sxx - cx * cx / s_w).max(0.0),
         sxv: sxv - cx * cv / s_w,
-        svv: svv - cv * cv / s_w,
+        svv: (svv - cv * cv / s_w).max(0.0),
         wmin,
     }
 }
@@ -510,9 +516,9 @@ pub(crate) fn full_chunk(xs: &[f64], ys: &[f64], ws: Option<&[f64]>, b0: f64) ->
         yc,
         mx: mx + cx / s_w,
         mv: mv + cv / s_w,
-        sxx: m[2][0] - cx * cx / s_w,
+        sxx: (m[2][0] - cx * cx / s_w).max(0.0),
         sxv: m[1][1] - cx * cv / s_w,
-        svv: m[0][2] - cv * cv / s_w,
+        svv: (m[0][2] - cv * cv / s_w).max(0.0),
         wmin,
     };
     FullChunk {
@@ -546,9 +552,9 @@ fn full_unweighted(xs: &[f64], ys: &[f64], xc: f64, yc: f64, b0: f64) -> FullChu
         yc,
         mx: mx + c.cu / nf,
         mv: mv + c.ct / nf,
-        sxx: m[2][0] - c.cu * c.cu / nf,
+        sxx: (m[2][0] - c.cu * c.cu / nf).max(0.0),
         sxv: m[1][1] - c.cu * c.ct / nf,
-        svv: m[0][2] - c.ct * c.ct / nf,
+        svv: (m[0][2] - c.ct * c.ct / nf).max(0.0),
         wmin: 1.0,
     };
     FullChunk {

@@ -26,7 +26,7 @@
 //! LeVeque (1979) for the second-order merge; Pébay (2008) and Pébay et al.
 //! (2016) for the higher-order bivariate merge.
 
-use crate::kernel::{self, FullChunk, LeanChunk, CHUNK};
+use crate::kernel::{self, FullChunk, LeanChunk, CHUNK, LEAN_CHUNK};
 use core::fmt::Debug;
 
 /// Number of pairs held raw before the frame is fitted.
@@ -363,9 +363,62 @@ impl<T: Tier> PairMoments<T> {
     /// [`MomentsError::NonFinite`] (index 0) for NaN or infinite input,
     /// [`MomentsError::Overflow`] if a moment would overflow. The accumulator
     /// is unchanged on error.
+    #[inline]
     pub fn push(&mut self, x: f64, y: f64) -> Result<(), MomentsError> {
+        if !T::IS_FULL && self.framed && !self.slope_free && self.push_lean_in_place(x, y) {
+            return Ok(());
+        }
         check_pair(x, y, 0)?;
         self.push_checked(x, y, 1.0)
+    }
+
+    /// West's unit-weight update of a framed lean state, in place, when
+    /// the pair and the state are within bounds that rule out overflow:
+    /// `|x − x0|, |y − y0| <= 2^300`, `|b0| <= 2^190` give `|v| < 2^491`,
+    /// so no term exceeds 2^983, and sums up to 2^1000 stay finite. Then
+    /// the copy and the finiteness checks of the general path are not
+    /// needed. Returns `false` (nothing changed) otherwise, NaN included.
+    #[inline(always)]
+    fn push_lean_in_place(&mut self, x: f64, y: f64) -> bool {
+        // 2^300, 2^190, 2^1000.
+        let (lim, slope, big) = (
+            2.037035976334486e90,
+            1.5692754338466702e57,
+            1.0715086071862673e301,
+        );
+        let dx = x - self.x0;
+        let dy = y - self.y0;
+        // `&` (not `&&`): one branch for the whole test.
+        let ok = (dx.abs() <= lim)
+            & (dy.abs() <= lim)
+            & (self.b0.abs() <= slope)
+            & (self.mx.abs() <= lim)
+            & (self.mv.abs() <= lim)
+            & (self.sxx <= big)
+            & (self.svv <= big)
+            & (self.sxv.abs() <= big)
+            & (self.w <= big)
+            & (self.w2 <= big)
+            & (self.count < u64::MAX);
+        if !ok {
+            return false;
+        }
+        let v = dy - self.b0 * dx;
+        let w_new = self.w + 1.0;
+        let r = 1.0 / w_new;
+        let ddx = dx - self.mx;
+        let ddv = v - self.mv;
+        // `W/W'·ddx²` form as in `update` (never negative).
+        let f = self.w * r;
+        self.mx += r * ddx;
+        self.mv += r * ddv;
+        self.sxx += f * ddx * ddx;
+        self.sxv += f * ddx * ddv;
+        self.svv += f * ddv * ddv;
+        self.w = w_new;
+        self.w2 += 1.0;
+        self.count += 1;
+        true
     }
 
     /// Adds one pair with weight `w > 0`. Weights are relative or known
@@ -615,14 +668,21 @@ impl<T: Tier> PairMoments<T> {
             t.push_checked(xs[i], ys[i], w)?;
             i += 1;
         }
+        // The lean kernel is one pass, so its chunks can be longer (less
+        // merge overhead); the full kernel re-reads its chunk from L1.
+        let chunk = if T::IS_FULL || ws.is_some() {
+            CHUNK
+        } else {
+            LEAN_CHUNK
+        };
         while i < xs.len() {
-            let end = (i + CHUNK).min(xs.len());
+            let end = (i + chunk).min(xs.len());
             let (cx, cy) = (&xs[i..end], &ys[i..end]);
             let cw = ws.map(|w| &w[i..end]);
             if T::IS_FULL {
                 let c = kernel::full_chunk(cx, cy, cw, t.b0);
                 validate_chunk(&c.lean, cx, cy, cw, i)?;
-                t.absorb_full(&c)?;
+                t.absorb(&c.lean, Some(&c))?;
             } else {
                 let c = kernel::lean_chunk(cx, cy, cw, t.b0);
                 validate_chunk(&c, cx, cy, cw, i)?;
@@ -634,48 +694,64 @@ impl<T: Tier> PairMoments<T> {
         Ok(())
     }
 
-    fn absorb_full(&mut self, c: &FullChunk) -> Result<(), MomentsError> {
-        self.absorb(&c.lean, Some(c))
-    }
-
-    /// Merges a chunk summary (given about its own local shift) into the state.
+    /// Merges a chunk summary (given about its own local shift) into the
+    /// state. Atomic: the new values are formed and checked before any is
+    /// stored, so no copy of the whole state is needed per chunk.
     fn absorb(&mut self, c: &LeanChunk, full: Option<&FullChunk>) -> Result<(), MomentsError> {
         // The chunk's v was taken about (xc, yc) with slope b0; in the state's
         // frame it differs by a constant only.
         let off_x = c.xc - self.x0;
         let off_v = (c.yc - self.y0) - self.b0 * off_x;
-        let mut m = [[0.0f64; 5]; 5];
-        if let Some(f) = full {
-            m = f.m;
-        }
-        m[2][0] = c.sxx;
-        m[1][1] = c.sxv;
-        m[0][2] = c.svv;
-        let b = Set {
-            w: c.w,
-            mx: c.mx + off_x,
-            mv: c.mv + off_v,
-            m,
+        let (bmx, bmv) = (c.mx + off_x, c.mv + off_v);
+        // Chan–Golub–LeVeque merge of the second moments (as in `combine`).
+        let (w, mx, mv, sxx, sxv, svv, dx, dv) = if self.w == 0.0 {
+            (c.w, bmx, bmv, c.sxx, c.sxv, c.svv, 0.0, 0.0)
+        } else {
+            let w = self.w + c.w;
+            let dx = bmx - self.mx;
+            let dv = bmv - self.mv;
+            let f = self.w * c.w / w;
+            (
+                w,
+                self.mx + dx * (c.w / w),
+                self.mv + dv * (c.w / w),
+                self.sxx + c.sxx + f * dx * dx,
+                self.sxv + c.sxv + f * dx * dv,
+                self.svv + c.svv + f * dv * dv,
+                dx,
+                dv,
+            )
         };
-        let mut t = *self;
-        t.combine(&b)?;
-        t.count += c.n as u64;
-        t.w2 += c.w2;
+        let w2 = self.w2 + c.w2;
+        let mut hi = self.hi;
         if let Some(f) = full {
+            let mut m = f.m;
+            m[2][0] = c.sxx;
+            m[1][1] = c.sxv;
+            m[0][2] = c.svv;
+            let b = Set {
+                w: c.w,
+                mx: bmx,
+                mv: bmv,
+                m,
+            };
+            let merged = if self.w == 0.0 {
+                m
+            } else {
+                merge_higher(&self.set(), &b, dx, dv)
+            };
             let had = self.count > 0;
-            let last = self.last_pair();
             let b0 = self.b0;
-            let fx = f.lean.xc;
-            let fy = f.lean.yc;
-            T::with_higher(&mut t.hi, |h| {
+            T::with_higher(&mut hi, |h| {
+                copy_higher(&mut h.m, &merged);
                 if had {
-                    let ddx = fx - last.0;
-                    let ddv = (fy - last.1) - b0 * ddx;
+                    let ddx = c.xc - h.last.0;
+                    let ddv = (c.yc - h.last.1) - b0 * ddx;
                     h.lag[0] += ddx * ddx;
                     h.lag[1] += ddx * ddv;
                     h.lag[2] += ddv * ddv;
                 } else {
-                    h.first = (fx, fy);
+                    h.first = (c.xc, c.yc);
                 }
                 for k in 0..3 {
                     h.lag[k] += f.lag[k];
@@ -684,14 +760,31 @@ impl<T: Tier> PairMoments<T> {
                 h.xmax = h.xmax.max(f.xmax);
                 h.ymin = h.ymin.min(f.ymin);
                 h.ymax = h.ymax.max(f.ymax);
+                // The chunk's last pair is needed for the next boundary term.
+                h.last = f.last;
             });
-            // The chunk's last pair is needed for the next boundary term.
-            T::with_higher(&mut t.hi, |h| h.last = f.last);
         }
-        if !t.is_state_finite() {
+        let ok = all_finite(&[w, w2, mx, mv, sxx, sxv, svv])
+            && sxx >= 0.0
+            && svv >= 0.0
+            && T::higher(&hi).map_or(true, |h| {
+                h.m.iter()
+                    .flatten()
+                    .chain(h.lag.iter())
+                    .all(|v| v.is_finite())
+            });
+        if !ok {
             return Err(MomentsError::Overflow);
         }
-        *self = t;
+        self.w = w;
+        self.w2 = w2;
+        self.mx = mx;
+        self.mv = mv;
+        self.sxx = sxx;
+        self.sxv = sxv;
+        self.svv = svv;
+        self.count += c.n as u64;
+        self.hi = hi;
         Ok(())
     }
 

@@ -1,7 +1,10 @@
 //! One-run speed report: every figure beside the read ceiling measured in
 //! the same run, so the ratios hold even on a busy machine.
 //!
-//! `cargo run --release -p plumbfit-benches --bin speed-report [-- --quick]`
+//! `cargo run --release -p plumbfit-benches --bin speed-report [-- --quick] [-- --only push]`
+//!
+//! `--quick` shortens every measurement (a smoke run); `--only NAME` runs
+//! one section (`extend`, `push`, `merge`, `model`) beside the ceiling.
 
 use plumbfit::model::ModelMoments;
 use plumbfit::{FullMoments, LeanMoments, PairMoments, Tier};
@@ -34,7 +37,13 @@ fn push_all<T: Tier>(xs: &[f64], ys: &[f64]) -> usize {
 }
 
 fn main() {
-    let quick = std::env::args().any(|a| a == "--quick");
+    let args: Vec<String> = std::env::args().collect();
+    let quick = args.iter().any(|a| a == "--quick");
+    let only = args
+        .iter()
+        .position(|a| a == "--only")
+        .and_then(|i| args.get(i + 1).cloned());
+    let on = |section: &str| only.as_deref().map_or(true, |o| o == section);
     let budget = if quick { 0.05 } else { 0.6 };
     let load0 = load_average().unwrap_or_else(|| "unknown".into());
     let mut rows: Vec<Row> = Vec::new();
@@ -56,27 +65,32 @@ fn main() {
             unit: "pairs/s",
             ratio: Some(1.0),
         });
-        let lean = rate(n, budget, 5, || {
-            failures += !extend_once::<plumbfit::Lean>(&xs, &ys) as usize;
-        });
-        rows.push(Row {
-            what: "lean extend".into(),
-            n,
-            rate: lean,
-            unit: "pairs/s",
-            ratio: Some(lean / ceil),
-        });
-        let full = rate(n, budget, 5, || {
-            failures += !extend_once::<plumbfit::Full>(&xs, &ys) as usize;
-        });
-        rows.push(Row {
-            what: "full extend".into(),
-            n,
-            rate: full,
-            unit: "pairs/s",
-            ratio: Some(full / ceil),
-        });
-        if n == 1_000_000 || (quick && n == 100_000) {
+        if !on("extend") && !on("push") {
+            continue;
+        }
+        if on("extend") {
+            let lean = rate(n, budget, 5, || {
+                failures += !extend_once::<plumbfit::Lean>(&xs, &ys) as usize;
+            });
+            rows.push(Row {
+                what: "lean extend".into(),
+                n,
+                rate: lean,
+                unit: "pairs/s",
+                ratio: Some(lean / ceil),
+            });
+            let full = rate(n, budget, 5, || {
+                failures += !extend_once::<plumbfit::Full>(&xs, &ys) as usize;
+            });
+            rows.push(Row {
+                what: "full extend".into(),
+                n,
+                rate: full,
+                unit: "pairs/s",
+                ratio: Some(full / ceil),
+            });
+        }
+        if (n == 1_000_000 || (quick && n == 100_000)) && on("push") {
             let ws: Vec<f64> = (0..n).map(|i| 1.0 + (i % 3) as f64).collect();
             let lw = rate(n, budget, 5, || {
                 let mut a = LeanMoments::new();
@@ -117,38 +131,40 @@ fn main() {
 
     // Merges of two framed accumulators with different frames (the general
     // case: shift and slope change).
-    let (xs, ys) = offset_pairs(2_000, 11);
-    let mut la = LeanMoments::new();
-    let mut lb = LeanMoments::new();
-    let mut fa = FullMoments::new();
-    let mut fb = FullMoments::new();
-    failures += la.extend(&xs[..1000], &ys[..1000]).is_err() as usize;
-    failures += lb.extend(&xs[1000..], &ys[1000..]).is_err() as usize;
-    failures += fa.extend(&xs[..1000], &ys[..1000]).is_err() as usize;
-    failures += fb.extend(&xs[1000..], &ys[1000..]).is_err() as usize;
-    let reps = 1000;
-    let lm = rate(reps, budget, 5, || {
-        for _ in 0..reps {
-            let mut t = black_box(la);
-            failures += t.merge(black_box(&lb)).is_err() as usize;
-            black_box(&t);
-        }
-    });
-    let fm = rate(reps, budget, 5, || {
-        for _ in 0..reps {
-            let mut t = black_box(fa);
-            failures += t.merge(black_box(&fb)).is_err() as usize;
-            black_box(&t);
-        }
-    });
-    for (what, r) in [("lean merge", lm), ("full merge", fm)] {
-        rows.push(Row {
-            what: what.into(),
-            n: 1,
-            rate: r,
-            unit: "merges/s",
-            ratio: None,
+    if on("merge") {
+        let (xs, ys) = offset_pairs(2_000, 11);
+        let mut la = LeanMoments::new();
+        let mut lb = LeanMoments::new();
+        let mut fa = FullMoments::new();
+        let mut fb = FullMoments::new();
+        failures += la.extend(&xs[..1000], &ys[..1000]).is_err() as usize;
+        failures += lb.extend(&xs[1000..], &ys[1000..]).is_err() as usize;
+        failures += fa.extend(&xs[..1000], &ys[..1000]).is_err() as usize;
+        failures += fb.extend(&xs[1000..], &ys[1000..]).is_err() as usize;
+        let reps = 1000;
+        let lm = rate(reps, budget, 5, || {
+            for _ in 0..reps {
+                let mut t = black_box(la);
+                failures += t.merge(black_box(&lb)).is_err() as usize;
+                black_box(&t);
+            }
         });
+        let fm = rate(reps, budget, 5, || {
+            for _ in 0..reps {
+                let mut t = black_box(fa);
+                failures += t.merge(black_box(&fb)).is_err() as usize;
+                black_box(&t);
+            }
+        });
+        for (what, r) in [("lean merge", lm), ("full merge", fm)] {
+            rows.push(Row {
+                what: what.into(),
+                n: 1,
+                rate: r,
+                unit: "merges/s",
+                ratio: None,
+            });
+        }
     }
 
     // Model accumulator, default (full-accuracy) mode. Ratio: f64 values
@@ -162,6 +178,9 @@ fn main() {
         .unwrap_or(f64::NAN);
     let model_n = if quick { 20_000 } else { 1_000_000 };
     for p in [2usize, 4, 8, 12] {
+        if !on("model") {
+            break;
+        }
         let (rs, ys) = model_rows(model_n, p, 3 + p as u64);
         let r = rate(model_n, budget, 3, || match ModelMoments::new(p) {
             Ok(mut m) => {
