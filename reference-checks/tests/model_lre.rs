@@ -8,6 +8,19 @@ use reference_checks::{refdata_dir, run_model_checks, under_ci, Report, MODEL_DA
 
 const MIN_MODEL_LRE: f64 = 13.5;
 
+/// Wampler2's y values (1.11111, …) are not exact in binary; the exact
+/// rational solution of the double-rounded inputs scores 13.42, 13.20 and
+/// 13.39 on B2, B3 and B4 against the certified values, so no method fed
+/// doubles can reach 13.5 there. `core/tests/model_nist.rs` checks that our
+/// coefficients equal that exact solution to ≥ 14.5 digits; here those
+/// three values are held to 13.1 instead.
+fn floor_for(dataset: &str, value: &str) -> f64 {
+    match (dataset, value) {
+        ("Wampler2", "beta2" | "beta3" | "beta4") => 13.1,
+        _ => MIN_MODEL_LRE,
+    }
+}
+
 #[test]
 fn model_accumulator_reaches_the_certified_ceiling() {
     let mut report = Report::new();
