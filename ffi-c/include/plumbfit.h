@@ -195,6 +195,43 @@
 #define PF_INTERCEPT_NONE 2
 
 /*
+ Bytes of a saved lean line accumulator.
+ */
+#define PF_STATE_LINE_LEAN_LEN 308
+
+/*
+ Bytes of a saved full-tier line accumulator.
+ */
+#define PF_STATE_LINE_FULL_LEN 468
+
+/*
+ Largest saved state of any kind (a model with `PF_MODEL_MAX_PARAMS`
+ coefficients): a buffer of this size holds every state.
+ */
+#define PF_STATE_MAX_LEN 2532
+
+/*
+ Bytes of the fixed header at the start of every saved state (enough for
+ `pf_state_declared_len`).
+ */
+#define PF_STATE_HEADER_LEN 16
+
+/*
+ `pf_state_info.kind`: a lean line accumulator.
+ */
+#define PF_STATE_KIND_LINE_LEAN 1
+
+/*
+ `pf_state_info.kind`: a full-tier line accumulator.
+ */
+#define PF_STATE_KIND_LINE_FULL 2
+
+/*
+ `pf_state_info.kind`: a model accumulator.
+ */
+#define PF_STATE_KIND_MODEL 3
+
+/*
  Major version of the library (from Cargo.toml; checked at compile time).
  */
 #define PF_VERSION_MAJOR 0
@@ -1015,6 +1052,35 @@ typedef struct {
 } pf_model_info;
 
 /*
+ What a saved state holds, from `pf_state_peek`.
+
+ Plain data owned by the caller (stack, static or heap); the library
+ keeps no pointer to it and it may be copied and read from any thread.
+ */
+typedef struct {
+    /*
+     One of the `PF_STATE_KIND_*` values.
+     */
+    uint32_t kind;
+    /*
+     Format version of the bytes.
+     */
+    uint32_t version;
+    /*
+     Number of model coefficients (0 for line states).
+     */
+    uint32_t params;
+    /*
+     Pairs or rows accumulated.
+     */
+    uint64_t count;
+    /*
+     Total length of the state in bytes.
+     */
+    size_t len;
+} pf_state_info;
+
+/*
  Static or stack storage for a lean accumulator, for `pf_line_init_in`
  without a size query: `static pf_line_lean_storage st;` then
  `pf_line_init_in(&st, sizeof st, PF_TIER_LEAN, &line)`. The contents are
@@ -1198,6 +1264,56 @@ typedef struct {
  Diagnostics: the design rows do not match the model.
  */
 #define PF_ERR_DIAG_MODEL_MISMATCH 43
+
+/*
+ State bytes: not a saved state (bad magic).
+ */
+#define PF_ERR_STATE_BAD_MAGIC 50
+
+/*
+ State bytes: a format version this library does not read.
+ */
+#define PF_ERR_STATE_VERSION 51
+
+/*
+ State bytes: an unknown accumulator kind.
+ */
+#define PF_ERR_STATE_UNKNOWN_KIND 52
+
+/*
+ State bytes: another kind of accumulator (e.g. the other tier).
+ */
+#define PF_ERR_STATE_WRONG_KIND 53
+
+/*
+ State bytes: fewer bytes than the header declares.
+ */
+#define PF_ERR_STATE_TRUNCATED 54
+
+/*
+ State bytes: the length differs from the one the header declares.
+ */
+#define PF_ERR_STATE_LENGTH 55
+
+/*
+ State bytes: checksum mismatch (corrupted bytes).
+ */
+#define PF_ERR_STATE_CHECKSUM 56
+
+/*
+ State bytes: a field breaks a validation rule.
+ */
+#define PF_ERR_STATE_INVALID_FIELD 57
+
+/*
+ State bytes: the output buffer is too small for the saved state.
+ */
+#define PF_ERR_STATE_BUFFER_TOO_SMALL 58
+
+/*
+ State bytes: model storage too small for the saved state.
+ */
+#define PF_ERR_STATE_STORAGE_TOO_SMALL 59
 
 /*
  A required pointer argument is NULL.
@@ -2300,6 +2416,115 @@ pf_status pf_model_leverage(const pf_model *m,
                             const double *row,
                             size_t row_len,
                             double *out);
+
+/*
+ Stores the number of bytes `pf_line_save` writes for `line` in `*out`
+ (`PF_STATE_LINE_LEAN_LEN` or `PF_STATE_LINE_FULL_LEN`).
+
+ Errors: `PF_ERR_NULL_POINTER`, handle errors. Read-only.
+
+ # Safety
+ `line` NULL or a live handle; `out` NULL or valid for one `size_t`.
+ */
+pf_status pf_line_state_len(const pf_line *line, size_t *out);
+
+/*
+ Saves the state of `line` into `out` (capacity `cap` bytes) and stores
+ the number of bytes written in `*written`. No heap is used. The bytes
+ are the same on every platform and from every door.
+
+ Errors: `PF_ERR_NULL_POINTER` (any pointer, even with `cap` 0),
+ `PF_ERR_STATE_BUFFER_TOO_SMALL` (query `pf_line_state_len`),
+ `PF_ERR_OVERFLOW`, handle errors. Nothing is written on error.
+ Read-only.
+
+ # Safety
+ `line` NULL or a live handle; `out` NULL or valid for `cap` bytes;
+ `written` NULL or valid for one `size_t`.
+ */
+pf_status pf_line_save(const pf_line *line, uint8_t *out, size_t cap, size_t *written);
+
+/*
+ Replaces the state of `line` by the state saved in `bytes` (`len`
+ bytes, exactly one saved line state of the same tier). Everything is
+ checked first (format, version, checksum, field rules); on error the
+ accumulator is unchanged. Works for heap and caller-storage handles.
+
+ Errors: `PF_ERR_NULL_POINTER` (even with `len` 0),
+ `PF_ERR_STATE_WRONG_KIND` (other tier or a model), every other
+ `PF_ERR_STATE_*`, handle errors. Needs exclusive access.
+
+ # Safety
+ `line` NULL or a live handle; `bytes` NULL or valid for `len` bytes.
+ */
+pf_status pf_line_restore(pf_line *line, const uint8_t *bytes, size_t len);
+
+/*
+ Stores the number of bytes `pf_model_save` writes for `m` in `*out`.
+
+ Errors: `PF_ERR_NULL_POINTER`, handle errors. Read-only.
+
+ # Safety
+ `m` NULL or a live handle; `out` NULL or valid for one `size_t`.
+ */
+pf_status pf_model_state_len(const pf_model *m, size_t *out);
+
+/*
+ Saves the state of `m` into `out` (capacity `cap` bytes) and stores the
+ number of bytes written in `*written`. No heap is used.
+
+ Errors: `PF_ERR_NULL_POINTER` (any pointer), `PF_ERR_STATE_BUFFER_TOO_SMALL`
+ (query `pf_model_state_len`; `PF_STATE_MAX_LEN` always suffices), handle
+ errors. Nothing is written on error. Read-only.
+
+ # Safety
+ `m` NULL or a live handle; `out` NULL or valid for `cap` bytes;
+ `written` NULL or valid for one `size_t`.
+ */
+pf_status pf_model_save(const pf_model *m, uint8_t *out, size_t cap, size_t *written);
+
+/*
+ Replaces the state of `m` by a saved model state with the same number
+ of coefficients. Everything is checked first; on error the accumulator
+ is unchanged. Works for heap and caller-storage handles.
+
+ Errors: `PF_ERR_NULL_POINTER` (even with `len` 0),
+ `PF_ERR_MODEL_DIMENSION` (the state has a different p),
+ `PF_ERR_STATE_WRONG_KIND` (a line state), every other `PF_ERR_STATE_*`,
+ handle errors. Needs exclusive access.
+
+ # Safety
+ `m` NULL or a live handle; `bytes` NULL or valid for `len` bytes.
+ */
+pf_status pf_model_restore(pf_model *m, const uint8_t *bytes, size_t len);
+
+/*
+ Checks the header, exact length and checksum of a saved state of `len`
+ bytes and stores what it holds in `*out` (the field rules are checked
+ only by a restore).
+
+ Errors: `PF_ERR_NULL_POINTER` (even with `len` 0), the
+ `PF_ERR_STATE_*` format errors. Thread-safe.
+
+ # Safety
+ `bytes` NULL or valid for `len` bytes; `out` NULL or valid for one
+ `pf_state_info`.
+ */
+pf_status pf_state_peek(const uint8_t *bytes, size_t len, pf_state_info *out);
+
+/*
+ Reads only the first `PF_STATE_HEADER_LEN` bytes of a saved state (e.g.
+ from a stream) and stores the state's total length in `*out`. Checks
+ magic, version, kind and length, not the checksum.
+
+ Errors: `PF_ERR_NULL_POINTER`, `PF_ERR_STATE_TRUNCATED` (`len` below
+ the header length), the other header errors. Thread-safe.
+
+ # Safety
+ `header` NULL or valid for `len` bytes; `out` NULL or valid for one
+ `size_t`.
+ */
+pf_status pf_state_declared_len(const uint8_t *header, size_t len, size_t *out);
 
 /*
  A short English description of `status` (any number, known or not).

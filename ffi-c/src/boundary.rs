@@ -130,6 +130,24 @@ pub(crate) unsafe fn slice_in<'a>(p: *const f64, len: usize) -> Result<&'a [f64]
     Ok(unsafe { core::slice::from_raw_parts(p, len) })
 }
 
+/// Borrows a C byte array after checking NULL and length (an empty array
+/// still needs a non-NULL pointer).
+///
+/// # Safety
+/// A non-NULL `p` must point to `len` readable bytes that stay unchanged
+/// for the returned lifetime.
+pub(crate) unsafe fn slice_in_bytes<'a>(p: *const u8, len: usize) -> Result<&'a [u8], pf_status> {
+    if p.is_null() {
+        return Err(PF_ERR_NULL_POINTER);
+    }
+    if len > isize::MAX as usize {
+        return Err(PF_ERR_BAD_ARGUMENT);
+    }
+    // SAFETY: non-NULL, length addressable (checked above); readable by
+    // the caller's contract; bytes need no alignment.
+    Ok(unsafe { core::slice::from_raw_parts(p, len) })
+}
+
 #[cfg(test)]
 #[allow(clippy::unwrap_used, clippy::panic)]
 mod tests {

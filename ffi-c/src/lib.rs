@@ -25,6 +25,7 @@ pub mod diag;
 pub mod fit;
 pub mod line;
 pub mod model;
+pub mod state;
 pub mod status;
 pub mod version;
 

@@ -690,6 +690,42 @@ pub(crate) unsafe fn with_full(
     }
 }
 
+/// Runs a read-only body on either tier.
+///
+/// # Safety
+/// As [`with_ref`].
+pub(crate) unsafe fn with_either(
+    line: *const pf_line,
+    lean: impl FnOnce(&LeanMoments) -> pf_status,
+    full: impl FnOnce(&FullMoments) -> pf_status,
+) -> pf_status {
+    // SAFETY: forwarded contract.
+    unsafe {
+        with_ref(line, |a| match a {
+            AccRef::Lean(acc) => lean(acc),
+            AccRef::Full(acc) => full(acc),
+        })
+    }
+}
+
+/// Runs a mutating body on either tier.
+///
+/// # Safety
+/// As [`with_mut`].
+pub(crate) unsafe fn with_either_mut(
+    line: *mut pf_line,
+    lean: impl FnOnce(&mut LeanMoments) -> pf_status,
+    full: impl FnOnce(&mut FullMoments) -> pf_status,
+) -> pf_status {
+    // SAFETY: forwarded contract.
+    unsafe {
+        with_mut(line, |a| match a {
+            AccMut::Lean(acc) => lean(acc),
+            AccMut::Full(acc) => full(acc),
+        })
+    }
+}
+
 /// Range query shared by `pf_line_x_range` and `pf_line_y_range`.
 ///
 /// # Safety

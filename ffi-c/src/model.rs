@@ -195,6 +195,35 @@ unsafe fn with_ref(m: *const pf_model, f: impl FnOnce(&ModelCore<'_>) -> pf_stat
     }
 }
 
+/// Read-only access for other modules of the C door.
+///
+/// # Safety
+/// As [`with_ref`].
+pub(crate) unsafe fn with_core(
+    m: *const pf_model,
+    f: impl FnOnce(&ModelCore<'_>) -> pf_status,
+) -> pf_status {
+    // SAFETY: forwarded contract.
+    unsafe { with_ref(m, f) }
+}
+
+/// Mutating access to the raw state (with its `p`) for other modules.
+///
+/// # Safety
+/// As [`with_mut`].
+pub(crate) unsafe fn with_state_mut(
+    m: *mut pf_model,
+    f: impl FnOnce(usize, &mut [f64]) -> pf_status,
+) -> pf_status {
+    // SAFETY: forwarded contract.
+    unsafe {
+        guard_mut(m, TAG_MODEL, |h, p| match state(h, p) {
+            Ok(s) => f(h.variant as usize, s),
+            Err(e) => e,
+        })
+    }
+}
+
 /// Fits and runs `f` on the result.
 ///
 /// # Safety

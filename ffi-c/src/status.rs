@@ -77,6 +77,26 @@ pub const PF_ERR_DIAG_THROUGH_ORIGIN: pf_status = 41;
 pub const PF_ERR_DIAG_FIT_MISMATCH: pf_status = 42;
 /// Diagnostics: the design rows do not match the model.
 pub const PF_ERR_DIAG_MODEL_MISMATCH: pf_status = 43;
+/// State bytes: not a saved state (bad magic).
+pub const PF_ERR_STATE_BAD_MAGIC: pf_status = 50;
+/// State bytes: a format version this library does not read.
+pub const PF_ERR_STATE_VERSION: pf_status = 51;
+/// State bytes: an unknown accumulator kind.
+pub const PF_ERR_STATE_UNKNOWN_KIND: pf_status = 52;
+/// State bytes: another kind of accumulator (e.g. the other tier).
+pub const PF_ERR_STATE_WRONG_KIND: pf_status = 53;
+/// State bytes: fewer bytes than the header declares.
+pub const PF_ERR_STATE_TRUNCATED: pf_status = 54;
+/// State bytes: the length differs from the one the header declares.
+pub const PF_ERR_STATE_LENGTH: pf_status = 55;
+/// State bytes: checksum mismatch (corrupted bytes).
+pub const PF_ERR_STATE_CHECKSUM: pf_status = 56;
+/// State bytes: a field breaks a validation rule.
+pub const PF_ERR_STATE_INVALID_FIELD: pf_status = 57;
+/// State bytes: the output buffer is too small for the saved state.
+pub const PF_ERR_STATE_BUFFER_TOO_SMALL: pf_status = 58;
+/// State bytes: model storage too small for the saved state.
+pub const PF_ERR_STATE_STORAGE_TOO_SMALL: pf_status = 59;
 /// A required pointer argument is NULL.
 pub const PF_ERR_NULL_POINTER: pf_status = 60;
 /// Caller storage or an output array is too small.
@@ -195,6 +215,16 @@ fn message(status: u32) -> &'static str {
         PF_ERR_DIAG_FORGOTTEN => "forgotten data not supported by this diagnostic\0",
         PF_ERR_ZERO_RESIDUAL_VARIANCE => "residual variance is zero (exact fit)\0",
         PF_ERR_NO_CONVERGENCE => "p value integration did not converge\0",
+        PF_ERR_STATE_BAD_MAGIC => "not a saved state (bad magic)\0",
+        PF_ERR_STATE_VERSION => "unsupported state format version\0",
+        PF_ERR_STATE_UNKNOWN_KIND => "unknown state kind\0",
+        PF_ERR_STATE_WRONG_KIND => "state holds another kind of accumulator\0",
+        PF_ERR_STATE_TRUNCATED => "state truncated\0",
+        PF_ERR_STATE_LENGTH => "state length mismatch\0",
+        PF_ERR_STATE_CHECKSUM => "state checksum mismatch\0",
+        PF_ERR_STATE_INVALID_FIELD => "invalid state field\0",
+        PF_ERR_STATE_BUFFER_TOO_SMALL => "buffer too small for the state\0",
+        PF_ERR_STATE_STORAGE_TOO_SMALL => "storage too small for the state\0",
         PF_ERR_NULL_POINTER => "null pointer argument\0",
         PF_ERR_BUFFER_TOO_SMALL => "buffer too small\0",
         PF_ERR_MISALIGNED => "buffer misaligned\0",

@@ -475,6 +475,30 @@ fn diag_scenarios(o: &mut Out, d: &[[f64; 3]]) {
     o.f("diag.ad.p_value", ad.p_value);
 }
 
+/// Saved state bytes, as 8-byte little-endian words (the last one padded
+/// with zeros), in the order `tests/c/test_line.c` saves them.
+fn state_scenarios(o: &mut Out, d: &[[f64; 3]]) {
+    let mut words = |name: &str, b: &[u8]| {
+        o.n(&format!("{name}.len"), b.len() as u64);
+        for (k, c) in b.chunks(8).enumerate() {
+            let mut w = [0u8; 8];
+            w[..c.len()].copy_from_slice(c);
+            o.n(&format!("{name}.w{k}"), u64::from_le_bytes(w));
+        }
+    };
+    let mut lean = pf_core::LeanMoments::new();
+    let mut full = pf_core::FullMoments::new();
+    let mut model = ModelMoments::new(3).unwrap();
+    for p in d.iter().take(100) {
+        lean.push_weighted(p[0], p[1], p[2]).unwrap();
+        full.push(p[0], p[1]).unwrap();
+        model.push_powers(p[0], p[1], 1.0).unwrap();
+    }
+    words("state.lean", &lean.save_to_vec());
+    words("state.full", &full.save_to_vec());
+    words("state.model", &model.save_to_vec());
+}
+
 fn main() {
     let d = data(1000);
     let mut o = Out(Vec::new());
@@ -492,6 +516,7 @@ fn main() {
     o.f("full.y_range.max", hi);
     model_scenarios(&mut o, &d);
     calib_scenarios(&mut o, &d);
+    state_scenarios(&mut o, &d);
     diag_scenarios(&mut o, &d);
 
     println!("data {}", d.len());

@@ -6,7 +6,8 @@
  *    `cargo run -p plumbfit-ffi --example parity_values`, file in argv[1]),
  *  - NIST StRD Norris certified values (file read from $PLUMBFIT_REFDATA),
  *  - errors leave the accumulator unchanged,
- *  - the same for the model accumulator (parity and Norris).
+ *  - the same for the model accumulator (parity and Norris),
+ *  - calibration results and saved state bytes equal to the core's.
  * Compiled as C99 and as C++ (see tests/c/run.sh).
  */
 #include "plumbfit.h"
@@ -725,6 +726,101 @@ static void diag_scenarios(const double *xs, const double *ys, size_t n) {
     CHECK_STATUS(pf_line_free(full), PF_OK);
 }
 
+/* ---- saved state: parity of the bytes, round trip, corruption ---- */
+
+static void emit_words(const char *name, const uint8_t *b, size_t len) {
+    size_t k;
+    char field[32];
+    pn(name, "len", len);
+    for (k = 0; 8 * k < len; k++) {
+        uint64_t w = 0;
+        size_t j;
+        for (j = 0; j < 8 && 8 * k + j < len; j++) w |= (uint64_t)b[8 * k + j] << (8 * j);
+        snprintf(field, sizeof field, "w%lu", (unsigned long)k);
+        pn(name, field, w);
+    }
+}
+
+static uint8_t state_buf[PF_STATE_MAX_LEN];
+
+static void state_scenarios(const double *xs, const double *ys, const double *ws, size_t n) {
+    pf_line *lean = NULL, *full = NULL, *back = NULL;
+    pf_model *model = NULL, *mback = NULL;
+    static pf_line_lean_storage back_store;
+    pf_state_info info;
+    pf_fitted_line f1, f2;
+    size_t i, len = 0, need = 0, total = 0;
+    uint64_t c1 = 0, c2 = 0;
+
+    CHECK_STATUS(pf_line_new(PF_TIER_LEAN, &lean), PF_OK);
+    CHECK_STATUS(pf_line_new(PF_TIER_FULL, &full), PF_OK);
+    CHECK_STATUS(pf_model_new(3, &model), PF_OK);
+    for (i = 0; i < 100 && i < n; i++) {
+        CHECK_STATUS(pf_line_push_weighted(lean, xs[i], ys[i], ws[i]), PF_OK);
+        CHECK_STATUS(pf_line_push(full, xs[i], ys[i]), PF_OK);
+        CHECK_STATUS(pf_model_push_powers(model, xs[i], ys[i], 1.0), PF_OK);
+    }
+    CHECK_STATUS(pf_line_state_len(lean, &need), PF_OK);
+    CHECK(need == PF_STATE_LINE_LEAN_LEN);
+    CHECK_STATUS(pf_line_save(lean, state_buf, need - 1, &len), PF_ERR_STATE_BUFFER_TOO_SMALL);
+    CHECK_STATUS(pf_line_save(lean, state_buf, sizeof state_buf, &len), PF_OK);
+    CHECK(len == need);
+    emit_words("state.lean", state_buf, len);
+
+    /* Round trip into caller storage: same fit, bit for bit. */
+    CHECK_STATUS(pf_line_init_in(&back_store, sizeof back_store, PF_TIER_LEAN, &back), PF_OK);
+    CHECK_STATUS(pf_line_restore(back, state_buf, len), PF_OK);
+    CHECK_STATUS(pf_line_fit(lean, 0, &f1), PF_OK);
+    CHECK_STATUS(pf_line_fit(back, 0, &f2), PF_OK);
+    CHECK(memcmp(&f1.slope, &f2.slope, sizeof f1.slope) == 0);
+    CHECK(memcmp(&f1.resid_ss, &f2.resid_ss, sizeof f1.resid_ss) == 0);
+    CHECK(f1.count == f2.count);
+    CHECK_STATUS(pf_state_peek(state_buf, len, &info), PF_OK);
+    CHECK(info.kind == PF_STATE_KIND_LINE_LEAN && info.count == 100 && info.len == len);
+    CHECK_STATUS(pf_state_declared_len(state_buf, PF_STATE_HEADER_LEN, &total), PF_OK);
+    CHECK(total == len);
+
+    /* Corrupted, truncated or wrong-kind bytes are refused; state kept. */
+    CHECK_STATUS(pf_line_push(back, 1.0, 1.0), PF_OK);
+    CHECK_STATUS(pf_line_count(back, &c1), PF_OK);
+    state_buf[40] ^= 0x10;
+    CHECK_STATUS(pf_line_restore(back, state_buf, len), PF_ERR_STATE_CHECKSUM);
+    state_buf[40] ^= 0x10;
+    CHECK_STATUS(pf_line_restore(back, state_buf, len - 1), PF_ERR_STATE_TRUNCATED);
+    CHECK_STATUS(pf_line_restore(back, state_buf, 0), PF_ERR_STATE_TRUNCATED);
+    state_buf[0] ^= 0xFF;
+    CHECK_STATUS(pf_line_restore(back, state_buf, len), PF_ERR_STATE_BAD_MAGIC);
+    state_buf[0] ^= 0xFF;
+    CHECK_STATUS(pf_line_count(back, &c2), PF_OK);
+    CHECK(c1 == c2 && c1 == 101);
+
+    CHECK_STATUS(pf_line_save(full, state_buf, sizeof state_buf, &len), PF_OK);
+    CHECK(len == PF_STATE_LINE_FULL_LEN);
+    emit_words("state.full", state_buf, len);
+    CHECK_STATUS(pf_line_restore(back, state_buf, len), PF_ERR_STATE_WRONG_KIND);
+
+    CHECK_STATUS(pf_model_state_len(model, &need), PF_OK);
+    CHECK_STATUS(pf_model_save(model, state_buf, need - 1, &len), PF_ERR_STATE_BUFFER_TOO_SMALL);
+    CHECK_STATUS(pf_model_save(model, state_buf, sizeof state_buf, &len), PF_OK);
+    CHECK(len == need);
+    emit_words("state.model", state_buf, len);
+    CHECK_STATUS(pf_state_peek(state_buf, len, &info), PF_OK);
+    CHECK(info.kind == PF_STATE_KIND_MODEL && info.params == 3 && info.count == 100);
+    CHECK_STATUS(pf_model_new(3, &mback), PF_OK);
+    CHECK_STATUS(pf_model_restore(mback, state_buf, len), PF_OK);
+    CHECK_STATUS(pf_model_count(mback, &c1), PF_OK);
+    CHECK(c1 == 100);
+    CHECK_STATUS(pf_line_restore(back, state_buf, len), PF_ERR_STATE_WRONG_KIND);
+    CHECK_STATUS(pf_model_free(mback), PF_OK);
+    CHECK_STATUS(pf_model_new(2, &mback), PF_OK);
+    CHECK_STATUS(pf_model_restore(mback, state_buf, len), PF_ERR_MODEL_DIMENSION);
+    CHECK_STATUS(pf_model_free(mback), PF_OK);
+
+    CHECK_STATUS(pf_model_free(model), PF_OK);
+    CHECK_STATUS(pf_line_free(full), PF_OK);
+    CHECK_STATUS(pf_line_free(lean), PF_OK);
+}
+
 static double from_bits(uint64_t b) {
     double v;
     memcpy(&v, &b, sizeof v);
@@ -793,6 +889,7 @@ static void test_parity(const char *path) {
     CHECK_STATUS(pf_line_free(full), PF_OK);
     model_scenarios(xs, ys, ws, n);
     calib_scenarios(xs, ys, n);
+    state_scenarios(xs, ys, ws, n);
     diag_scenarios(xs, ys, n);
 
     if (next_expect != n_expect) {

@@ -235,6 +235,46 @@ int main(void) {
         EXPECT(pf_anderson_darling(misaligned, 2, &nt), PF_ERR_MISALIGNED);
     }
 
+    /* ---- saved state ---- */
+    {
+        static uint8_t sb[PF_STATE_MAX_LEN];
+        pf_model *sm = NULL;
+        pf_state_info si;
+        size_t sl = 7, sw = 7;
+        EXPECT(pf_model_new(2, &sm), PF_OK);
+        EXPECT(pf_line_state_len(NULL, &sl), NP);
+        EXPECT(pf_line_state_len(l, NULL), NP);
+        EXPECT(pf_line_save(NULL, sb, sizeof sb, &sw), NP);
+        EXPECT(pf_line_save(l, NULL, sizeof sb, &sw), NP);
+        EXPECT(pf_line_save(l, NULL, 0, &sw), NP);
+        EXPECT(pf_line_save(l, sb, sizeof sb, NULL), NP);
+        EXPECT(pf_line_save(l, sb, 0, &sw), PF_ERR_STATE_BUFFER_TOO_SMALL);
+        EXPECT(pf_line_restore(NULL, sb, sizeof sb), NP);
+        EXPECT(pf_line_restore(l, NULL, sizeof sb), NP);
+        EXPECT(pf_line_restore(l, NULL, 0), NP);
+        EXPECT(pf_line_restore(l, sb, 0), PF_ERR_STATE_TRUNCATED);
+        EXPECT(pf_line_restore(l, sb, SIZE_MAX), PF_ERR_BAD_ARGUMENT);
+        EXPECT(pf_model_state_len(NULL, &sl), NP);
+        EXPECT(pf_model_state_len(sm, NULL), NP);
+        EXPECT(pf_model_save(NULL, sb, sizeof sb, &sw), NP);
+        EXPECT(pf_model_save(sm, NULL, sizeof sb, &sw), NP);
+        EXPECT(pf_model_save(sm, sb, sizeof sb, NULL), NP);
+        EXPECT(pf_model_save(sm, sb, 1, &sw), PF_ERR_STATE_BUFFER_TOO_SMALL);
+        EXPECT(pf_model_restore(NULL, sb, sizeof sb), NP);
+        EXPECT(pf_model_restore(sm, NULL, sizeof sb), NP);
+        EXPECT(pf_model_restore(sm, NULL, 0), NP);
+        EXPECT(pf_model_restore(sm, sb, 3), PF_ERR_STATE_TRUNCATED);
+        EXPECT(pf_state_peek(NULL, sizeof sb, &si), NP);
+        EXPECT(pf_state_peek(NULL, 0, &si), NP);
+        EXPECT(pf_state_peek(sb, sizeof sb, NULL), NP);
+        EXPECT(pf_state_peek(sb, 0, &si), PF_ERR_STATE_TRUNCATED);
+        EXPECT(pf_state_declared_len(NULL, PF_STATE_HEADER_LEN, &sl), NP);
+        EXPECT(pf_state_declared_len(sb, PF_STATE_HEADER_LEN, NULL), NP);
+        EXPECT(pf_state_declared_len(sb, PF_STATE_HEADER_LEN - 1, &sl), PF_ERR_STATE_TRUNCATED);
+        CHECK(sl == 7 && sw == 7);
+        EXPECT(pf_model_free(sm), PF_OK);
+    }
+
     /* ---- model accumulator ---- */
     {
         pf_model *mm = NULL, *mu = NULL;

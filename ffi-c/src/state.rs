@@ -1,0 +1,386 @@
+//! Saving and restoring accumulator state as bytes (the persisted state
+//! format of the core: versioned, checksummed, little-endian; the same bytes
+//! from Rust, C and Python), for power cycles and for shipping a device's
+//! state to a host that merges it.
+
+use crate::boundary::{self, slice_in_bytes, write_out};
+use crate::status::*;
+use pf_core::model::{storage_len, ModelCore, MAX_PARAMS};
+use pf_core::state::{self, StateError, StateKind};
+use pf_core::{FullMoments, LeanMoments};
+
+/// Bytes of a saved lean line accumulator.
+pub const PF_STATE_LINE_LEAN_LEN: usize = 308;
+/// Bytes of a saved full-tier line accumulator.
+pub const PF_STATE_LINE_FULL_LEN: usize = 468;
+/// Largest saved state of any kind (a model with `PF_MODEL_MAX_PARAMS`
+/// coefficients): a buffer of this size holds every state.
+pub const PF_STATE_MAX_LEN: usize = 2532;
+/// Bytes of the fixed header at the start of every saved state (enough for
+/// `pf_state_declared_len`).
+pub const PF_STATE_HEADER_LEN: usize = 16;
+const _: () = assert!(
+    PF_STATE_LINE_LEAN_LEN == state::LEAN_LEN
+        && PF_STATE_LINE_FULL_LEN == state::FULL_LEN
+        && PF_STATE_MAX_LEN == state::MAX_ENCODED_LEN
+        && PF_STATE_HEADER_LEN == state::HEADER_LEN
+);
+
+/// `pf_state_info.kind`: a lean line accumulator.
+pub const PF_STATE_KIND_LINE_LEAN: u32 = 1;
+/// `pf_state_info.kind`: a full-tier line accumulator.
+pub const PF_STATE_KIND_LINE_FULL: u32 = 2;
+/// `pf_state_info.kind`: a model accumulator.
+pub const PF_STATE_KIND_MODEL: u32 = 3;
+
+/// What a saved state holds, from `pf_state_peek`.
+///
+/// Plain data owned by the caller (stack, static or heap); the library
+/// keeps no pointer to it and it may be copied and read from any thread.
+#[repr(C)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct pf_state_info {
+    /// One of the `PF_STATE_KIND_*` values.
+    pub kind: u32,
+    /// Format version of the bytes.
+    pub version: u32,
+    /// Number of model coefficients (0 for line states).
+    pub params: u32,
+    /// Pairs or rows accumulated.
+    pub count: u64,
+    /// Total length of the state in bytes.
+    pub len: usize,
+}
+
+fn state_err(e: StateError) -> pf_status {
+    from_code(e.code())
+}
+
+fn kind_code(k: StateKind) -> u32 {
+    match k {
+        StateKind::LineLean => PF_STATE_KIND_LINE_LEAN,
+        StateKind::LineFull => PF_STATE_KIND_LINE_FULL,
+        StateKind::Model => PF_STATE_KIND_MODEL,
+        // A kind added to the core later: report it by its header byte.
+        _ => k.code() as u32,
+    }
+}
+
+/// Writes `save(out)` into the caller buffer and its length to `written`.
+///
+/// # Safety
+/// `out` non-NULL and valid for `cap` bytes; `written` non-NULL, writable.
+unsafe fn save_with(
+    out: *mut u8,
+    cap: usize,
+    written: *mut usize,
+    len: usize,
+    save: impl FnOnce(&mut [u8]) -> Result<usize, StateError>,
+) -> pf_status {
+    if cap < len {
+        return PF_ERR_STATE_BUFFER_TOO_SMALL;
+    }
+    // Encode into a stack buffer first, so `out` is written only on success.
+    let mut tmp = [0u8; PF_STATE_MAX_LEN];
+    match save(&mut tmp[..len]) {
+        Ok(n) => {
+            // SAFETY: `n <= len <= cap`; `out` valid for `cap` bytes.
+            unsafe {
+                core::ptr::copy_nonoverlapping(tmp.as_ptr(), out, n);
+                write_out(written, n);
+            }
+            PF_OK
+        }
+        Err(e) => state_err(e),
+    }
+}
+
+/// Stores the number of bytes `pf_line_save` writes for `line` in `*out`
+/// (`PF_STATE_LINE_LEAN_LEN` or `PF_STATE_LINE_FULL_LEN`).
+///
+/// Errors: `PF_ERR_NULL_POINTER`, handle errors. Read-only.
+///
+/// # Safety
+/// `line` NULL or a live handle; `out` NULL or valid for one `size_t`.
+#[no_mangle]
+pub unsafe extern "C" fn pf_line_state_len(
+    line: *const crate::pf_line,
+    out: *mut usize,
+) -> pf_status {
+    if out.is_null() {
+        return PF_ERR_NULL_POINTER;
+    }
+    let mut tier = 0u32;
+    // SAFETY: forwarded contract.
+    let s = unsafe { crate::line::pf_line_tier(line, &mut tier) };
+    if s != PF_OK {
+        return s;
+    }
+    let n = if tier == crate::line::PF_TIER_FULL {
+        PF_STATE_LINE_FULL_LEN
+    } else {
+        PF_STATE_LINE_LEAN_LEN
+    };
+    // SAFETY: `out` non-NULL, writable by the contract.
+    unsafe { write_out(out, n) };
+    PF_OK
+}
+
+/// Saves the state of `line` into `out` (capacity `cap` bytes) and stores
+/// the number of bytes written in `*written`. No heap is used. The bytes
+/// are the same on every platform and from every door.
+///
+/// Errors: `PF_ERR_NULL_POINTER` (any pointer, even with `cap` 0),
+/// `PF_ERR_STATE_BUFFER_TOO_SMALL` (query `pf_line_state_len`),
+/// `PF_ERR_OVERFLOW`, handle errors. Nothing is written on error.
+/// Read-only.
+///
+/// # Safety
+/// `line` NULL or a live handle; `out` NULL or valid for `cap` bytes;
+/// `written` NULL or valid for one `size_t`.
+#[no_mangle]
+pub unsafe extern "C" fn pf_line_save(
+    line: *const crate::pf_line,
+    out: *mut u8,
+    cap: usize,
+    written: *mut usize,
+) -> pf_status {
+    if out.is_null() || written.is_null() {
+        return PF_ERR_NULL_POINTER;
+    }
+    // SAFETY: forwarded contract; outputs checked non-NULL.
+    unsafe {
+        crate::line::with_either(
+            line,
+            |a| save_with(out, cap, written, a.encoded_len(), |b| a.save_into(b)),
+            |a| save_with(out, cap, written, a.encoded_len(), |b| a.save_into(b)),
+        )
+    }
+}
+
+/// Replaces the state of `line` by the state saved in `bytes` (`len`
+/// bytes, exactly one saved line state of the same tier). Everything is
+/// checked first (format, version, checksum, field rules); on error the
+/// accumulator is unchanged. Works for heap and caller-storage handles.
+///
+/// Errors: `PF_ERR_NULL_POINTER` (even with `len` 0),
+/// `PF_ERR_STATE_WRONG_KIND` (other tier or a model), every other
+/// `PF_ERR_STATE_*`, handle errors. Needs exclusive access.
+///
+/// # Safety
+/// `line` NULL or a live handle; `bytes` NULL or valid for `len` bytes.
+#[no_mangle]
+pub unsafe extern "C" fn pf_line_restore(
+    line: *mut crate::pf_line,
+    bytes: *const u8,
+    len: usize,
+) -> pf_status {
+    if line.is_null() {
+        return PF_ERR_NULL_POINTER;
+    }
+    // SAFETY: forwarded contract.
+    let b = match unsafe { slice_in_bytes(bytes, len) } {
+        Ok(b) => b,
+        Err(e) => return e,
+    };
+    // SAFETY: forwarded contract.
+    unsafe {
+        crate::line::with_either_mut(
+            line,
+            |a| match LeanMoments::restore(b) {
+                Ok(v) => {
+                    *a = v;
+                    PF_OK
+                }
+                Err(e) => state_err(e),
+            },
+            |a| match FullMoments::restore(b) {
+                Ok(v) => {
+                    *a = v;
+                    PF_OK
+                }
+                Err(e) => state_err(e),
+            },
+        )
+    }
+}
+
+/// Stores the number of bytes `pf_model_save` writes for `m` in `*out`.
+///
+/// Errors: `PF_ERR_NULL_POINTER`, handle errors. Read-only.
+///
+/// # Safety
+/// `m` NULL or a live handle; `out` NULL or valid for one `size_t`.
+#[no_mangle]
+pub unsafe extern "C" fn pf_model_state_len(
+    m: *const crate::pf_model,
+    out: *mut usize,
+) -> pf_status {
+    if out.is_null() {
+        return PF_ERR_NULL_POINTER;
+    }
+    // SAFETY: forwarded contract; `out` checked.
+    unsafe {
+        crate::model::with_core(m, |c| {
+            write_out(out, c.encoded_len());
+            PF_OK
+        })
+    }
+}
+
+/// Saves the state of `m` into `out` (capacity `cap` bytes) and stores the
+/// number of bytes written in `*written`. No heap is used.
+///
+/// Errors: `PF_ERR_NULL_POINTER` (any pointer), `PF_ERR_STATE_BUFFER_TOO_SMALL`
+/// (query `pf_model_state_len`; `PF_STATE_MAX_LEN` always suffices), handle
+/// errors. Nothing is written on error. Read-only.
+///
+/// # Safety
+/// `m` NULL or a live handle; `out` NULL or valid for `cap` bytes;
+/// `written` NULL or valid for one `size_t`.
+#[no_mangle]
+pub unsafe extern "C" fn pf_model_save(
+    m: *const crate::pf_model,
+    out: *mut u8,
+    cap: usize,
+    written: *mut usize,
+) -> pf_status {
+    if out.is_null() || written.is_null() {
+        return PF_ERR_NULL_POINTER;
+    }
+    // SAFETY: forwarded contract; outputs checked.
+    unsafe {
+        crate::model::with_core(m, |c| {
+            save_with(out, cap, written, c.encoded_len(), |b| c.save_into(b))
+        })
+    }
+}
+
+/// Replaces the state of `m` by a saved model state with the same number
+/// of coefficients. Everything is checked first; on error the accumulator
+/// is unchanged. Works for heap and caller-storage handles.
+///
+/// Errors: `PF_ERR_NULL_POINTER` (even with `len` 0),
+/// `PF_ERR_MODEL_DIMENSION` (the state has a different p),
+/// `PF_ERR_STATE_WRONG_KIND` (a line state), every other `PF_ERR_STATE_*`,
+/// handle errors. Needs exclusive access.
+///
+/// # Safety
+/// `m` NULL or a live handle; `bytes` NULL or valid for `len` bytes.
+#[no_mangle]
+pub unsafe extern "C" fn pf_model_restore(
+    m: *mut crate::pf_model,
+    bytes: *const u8,
+    len: usize,
+) -> pf_status {
+    if m.is_null() {
+        return PF_ERR_NULL_POINTER;
+    }
+    // SAFETY: forwarded contract.
+    let b = match unsafe { slice_in_bytes(bytes, len) } {
+        Ok(b) => b,
+        Err(e) => return e,
+    };
+    // SAFETY: forwarded contract.
+    unsafe {
+        crate::model::with_state_mut(m, |params, s| {
+            let info = match state::peek(b) {
+                Ok(i) => i,
+                Err(e) => return state_err(e),
+            };
+            if info.kind == StateKind::Model && info.params as usize != params {
+                return from_code(
+                    pf_core::model::ModelError::DimensionMismatch {
+                        expected: params,
+                        found: info.params as usize,
+                    }
+                    .code(),
+                );
+            }
+            // Restore into a copy: the handle changes only on success.
+            let mut tmp = [0.0f64; storage_len(MAX_PARAMS)];
+            match ModelCore::restore_in(&mut tmp[..s.len()], b) {
+                Ok(_) => {
+                    s.copy_from_slice(&tmp[..s.len()]);
+                    PF_OK
+                }
+                Err(e) => state_err(e),
+            }
+        })
+    }
+}
+
+/// Checks the header, exact length and checksum of a saved state of `len`
+/// bytes and stores what it holds in `*out` (the field rules are checked
+/// only by a restore).
+///
+/// Errors: `PF_ERR_NULL_POINTER` (even with `len` 0), the
+/// `PF_ERR_STATE_*` format errors. Thread-safe.
+///
+/// # Safety
+/// `bytes` NULL or valid for `len` bytes; `out` NULL or valid for one
+/// `pf_state_info`.
+#[no_mangle]
+pub unsafe extern "C" fn pf_state_peek(
+    bytes: *const u8,
+    len: usize,
+    out: *mut pf_state_info,
+) -> pf_status {
+    if out.is_null() {
+        return PF_ERR_NULL_POINTER;
+    }
+    // SAFETY: forwarded contract.
+    let b = match unsafe { slice_in_bytes(bytes, len) } {
+        Ok(b) => b,
+        Err(e) => return e,
+    };
+    boundary::guard(|| match state::peek(b) {
+        Ok(i) => {
+            let info = pf_state_info {
+                kind: kind_code(i.kind),
+                version: i.version as u32,
+                params: i.params as u32,
+                count: i.count,
+                len: i.len,
+            };
+            // SAFETY: `out` non-NULL, writable by the contract.
+            unsafe { write_out(out, info) };
+            PF_OK
+        }
+        Err(e) => state_err(e),
+    })
+}
+
+/// Reads only the first `PF_STATE_HEADER_LEN` bytes of a saved state (e.g.
+/// from a stream) and stores the state's total length in `*out`. Checks
+/// magic, version, kind and length, not the checksum.
+///
+/// Errors: `PF_ERR_NULL_POINTER`, `PF_ERR_STATE_TRUNCATED` (`len` below
+/// the header length), the other header errors. Thread-safe.
+///
+/// # Safety
+/// `header` NULL or valid for `len` bytes; `out` NULL or valid for one
+/// `size_t`.
+#[no_mangle]
+pub unsafe extern "C" fn pf_state_declared_len(
+    header: *const u8,
+    len: usize,
+    out: *mut usize,
+) -> pf_status {
+    if out.is_null() {
+        return PF_ERR_NULL_POINTER;
+    }
+    // SAFETY: forwarded contract.
+    let b = match unsafe { slice_in_bytes(header, len) } {
+        Ok(b) => b,
+        Err(e) => return e,
+    };
+    boundary::guard(|| match state::declared_len(b) {
+        Ok(n) => {
+            // SAFETY: `out` non-NULL, writable by the contract.
+            unsafe { write_out(out, n) };
+            PF_OK
+        }
+        Err(e) => state_err(e),
+    })
+}
