@@ -965,9 +965,10 @@ fn check_model(s: &[f64], p: usize) -> Result<(), StateError> {
     check(s.len() == l.len(), StateField::Params)?;
     check(s[ModelLayout::TAG] == LAYOUT_TAG, StateField::ModelLayout)?;
     check(s[ModelLayout::P] == p as f64, StateField::Params)?;
+    // Any finite non-negative integer: merges add counts without a cap.
     let count = s[ModelLayout::COUNT];
     check(
-        count >= 0.0 && count <= EXACT_COUNT as f64 && libm::floor(count) == count,
+        count >= 0.0 && count.is_finite() && libm::floor(count) == count,
         StateField::Count,
     )?;
     let (w, w2) = (s[ModelLayout::WSUM], s[ModelLayout::WSQ]);
