@@ -25,6 +25,8 @@ static const double raw_counts[] = {8203.0,  8198.0,  48611.0,  48597.0,  109204
 
 /* The accumulator's memory: static, sized by the header. */
 static pf_line_lean_storage cal_storage;
+/* Stand-in for non-volatile memory that survives a power cycle. */
+static uint8_t nv_image[PF_STATE_LINE_LEAN_LEN];
 
 static int report(const char *what, pf_status s) {
     if (s == PF_OK) return 0;
@@ -57,6 +59,17 @@ int main(void) {
     /* The acquisition loop: one pair per calibration step. */
     for (i = 0; i < N_READINGS; i++) {
         if (report("push", pf_line_push(cal, ref_mass_g[i], raw_counts[i]))) return 1;
+    }
+
+    /* Persist the accumulator, then (as after a power cycle) rebuild it in
+     * the same static storage from the saved bytes. */
+    {
+        size_t written = 0;
+        if (report("save", pf_line_save(cal, nv_image, sizeof nv_image, &written))) return 1;
+        if (report("init", pf_line_init_in(&cal_storage, sizeof cal_storage, PF_TIER_LEAN, &cal)))
+            return 1;
+        if (report("restore", pf_line_restore(cal, nv_image, written))) return 1;
+        printf("state saved and restored: %lu bytes\n", (unsigned long)written);
     }
 
     if (report("fit", pf_line_fit(cal, 0, &line))) return 1;
