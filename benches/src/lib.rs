@@ -140,6 +140,37 @@ pub fn best_seconds(budget_s: f64, min_reps: usize, mut f: impl FnMut()) -> f64 
     best
 }
 
+/// Best time of one call for each of `fs`, measured in interleaved rounds
+/// (each round times every function once, batched as in [`best_seconds`])
+/// for at least `budget_s` seconds and `min_rounds` rounds. On a shared
+/// machine the load drifts; interleaving makes the kernels and the ceiling
+/// they are divided by see the same conditions.
+pub fn interleaved_best(budget_s: f64, min_rounds: usize, fs: &mut [&mut dyn FnMut()]) -> Vec<f64> {
+    let batches: Vec<usize> = fs
+        .iter_mut()
+        .map(|f| {
+            let t0 = Instant::now();
+            f();
+            let once = t0.elapsed().as_secs_f64().max(1e-9);
+            ((2e-4 / once).ceil() as usize).max(1)
+        })
+        .collect();
+    let mut best = vec![f64::INFINITY; fs.len()];
+    let start = Instant::now();
+    let mut rounds = 0;
+    while rounds < min_rounds || start.elapsed().as_secs_f64() < budget_s {
+        for ((f, &batch), b) in fs.iter_mut().zip(&batches).zip(best.iter_mut()) {
+            let t = Instant::now();
+            for _ in 0..batch {
+                f();
+            }
+            *b = b.min(t.elapsed().as_secs_f64() / batch as f64);
+        }
+        rounds += 1;
+    }
+    best
+}
+
 /// Rate in items per second of `f` processing `items` items per call.
 pub fn rate(items: usize, budget_s: f64, min_reps: usize, f: impl FnMut()) -> f64 {
     items as f64 / best_seconds(budget_s, min_reps, f)

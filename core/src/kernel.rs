@@ -12,10 +12,10 @@
 /// Pairs per chunk: two `f64` arrays of this length fit in L1 with room.
 pub(crate) const CHUNK: usize = 512;
 
-/// Pairs per chunk of the unweighted lean kernel. It reads its chunk once
-/// (the two-pass fallback is rare), so a longer chunk only cuts the merge
-/// overhead per pair; 2048 pairs (32 KiB) still re-read from L1/L2.
-pub(crate) const LEAN_CHUNK: usize = 2048;
+/// Pairs per chunk of the unweighted kernels. The lean kernel reads its
+/// chunk once (the two-pass fallback is rare); the full kernel reads it
+/// from memory once and then from cache (32 KiB per array stays in L2).
+pub(crate) const LONG_CHUNK: usize = 4096;
 
 /// Lost-bits budget of the one-pass lean kernel: a second moment that is
 /// smaller than its uncentred sum by more than this factor is recomputed.

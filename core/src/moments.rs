@@ -26,7 +26,7 @@
 //! LeVeque (1979) for the second-order merge; Pébay (2008) and Pébay et al.
 //! (2016) for the higher-order bivariate merge.
 
-use crate::kernel::{self, FullChunk, LeanChunk, CHUNK, LEAN_CHUNK};
+use crate::kernel::{self, FullChunk, LeanChunk, CHUNK, LONG_CHUNK};
 use core::fmt::Debug;
 
 /// Number of pairs held raw before the frame is fitted.
@@ -668,13 +668,10 @@ impl<T: Tier> PairMoments<T> {
             t.push_checked(xs[i], ys[i], w)?;
             i += 1;
         }
-        // The lean kernel is one pass, so its chunks can be longer (less
-        // merge overhead); the full kernel re-reads its chunk from L1.
-        let chunk = if T::IS_FULL || ws.is_some() {
-            CHUNK
-        } else {
-            LEAN_CHUNK
-        };
+        // Unweighted chunks are longer: less merge overhead per pair, and the
+        // full kernel's stream from memory restarts less often (its second
+        // pass re-reads the chunk from cache).
+        let chunk = if ws.is_some() { CHUNK } else { LONG_CHUNK };
         while i < xs.len() {
             let end = (i + chunk).min(xs.len());
             let (cx, cy) = (&xs[i..end], &ys[i..end]);

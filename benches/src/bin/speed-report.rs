@@ -8,7 +8,9 @@
 
 use plumbfit::model::ModelMoments;
 use plumbfit::{FullMoments, LeanMoments, PairMoments, Tier};
-use plumbfit_benches::{ceiling_rate, load_average, model_rows, offset_pairs, rate};
+use plumbfit_benches::{
+    interleaved_best, load_average, model_rows, offset_pairs, rate, read_ceiling,
+};
 use std::hint::black_box;
 
 struct Row {
@@ -54,80 +56,63 @@ fn main() {
         &[1_000, 10_000, 100_000, 1_000_000, 10_000_000]
     };
     let mut ceiling_at = Vec::new();
+    // Refused calls inside the timed closures (figures would be invalid).
+    let refused = std::cell::Cell::new(0usize);
+    let bump = |k: usize| refused.set(refused.get() + k);
     for &n in sizes {
-        let (xs, ys) = offset_pairs(n, 7);
-        let ceil = ceiling_rate(&xs, &ys, budget);
-        ceiling_at.push((n, ceil));
-        rows.push(Row {
-            what: "read ceiling (sum of both arrays)".into(),
-            n,
-            rate: ceil,
-            unit: "pairs/s",
-            ratio: Some(1.0),
-        });
         if !on("extend") && !on("push") {
             continue;
         }
+        let (xs, ys) = offset_pairs(n, 7);
+        let push_here = (n == 1_000_000 || (quick && n == 100_000)) && on("push");
+        let ws: Vec<f64> = (0..n).map(|i| 1.0 + (i % 3) as f64).collect();
+        let mut ceil_f = || {
+            black_box(read_ceiling(black_box(&xs), black_box(&ys)));
+        };
+        let mut lean_f = || bump(!extend_once::<plumbfit::Lean>(&xs, &ys) as usize);
+        let mut full_f = || bump(!extend_once::<plumbfit::Full>(&xs, &ys) as usize);
+        let mut names: Vec<&str> = vec!["read ceiling (sum of both arrays)"];
+        let mut fs: Vec<&mut dyn FnMut()> = vec![&mut ceil_f];
         if on("extend") {
-            let lean = rate(n, budget, 5, || {
-                failures += !extend_once::<plumbfit::Lean>(&xs, &ys) as usize;
-            });
-            rows.push(Row {
-                what: "lean extend".into(),
-                n,
-                rate: lean,
-                unit: "pairs/s",
-                ratio: Some(lean / ceil),
-            });
-            let full = rate(n, budget, 5, || {
-                failures += !extend_once::<plumbfit::Full>(&xs, &ys) as usize;
-            });
-            rows.push(Row {
-                what: "full extend".into(),
-                n,
-                rate: full,
-                unit: "pairs/s",
-                ratio: Some(full / ceil),
-            });
+            names.extend(["lean extend", "full extend"]);
+            fs.push(&mut lean_f);
+            fs.push(&mut full_f);
         }
-        if (n == 1_000_000 || (quick && n == 100_000)) && on("push") {
-            let ws: Vec<f64> = (0..n).map(|i| 1.0 + (i % 3) as f64).collect();
-            let lw = rate(n, budget, 5, || {
-                let mut a = LeanMoments::new();
-                failures += a.extend_weighted(&xs, &ys, &ws).is_err() as usize;
-                black_box(&a);
-            });
+        let mut weighted_f = || {
+            let mut a = LeanMoments::new();
+            bump(a.extend_weighted(&xs, &ys, &ws).is_err() as usize);
+            black_box(&a);
+        };
+        let mut lean_push_f = || bump(push_all::<plumbfit::Lean>(&xs, &ys));
+        let mut full_push_f = || bump(push_all::<plumbfit::Full>(&xs, &ys));
+        if push_here {
+            names.extend([
+                "lean extend_weighted (scalar)",
+                "lean push (per pair)",
+                "full push (per pair)",
+            ]);
+            fs.push(&mut weighted_f);
+            fs.push(&mut lean_push_f);
+            fs.push(&mut full_push_f);
+        }
+        if fs.len() == 1 {
+            continue;
+        }
+        let best = interleaved_best(budget * fs.len() as f64, 5, &mut fs);
+        let ceil = n as f64 / best[0];
+        ceiling_at.push((n, ceil));
+        for (name, t) in names.iter().zip(&best) {
+            let r = n as f64 / t;
             rows.push(Row {
-                what: "lean extend_weighted (scalar)".into(),
+                what: (*name).into(),
                 n,
-                rate: lw,
+                rate: r,
                 unit: "pairs/s",
-                ratio: Some(lw / ceil),
+                ratio: Some(r / ceil),
             });
-            for (name, r) in [
-                (
-                    "lean push (per pair)",
-                    rate(n, budget, 5, || {
-                        failures += push_all::<plumbfit::Lean>(&xs, &ys)
-                    }),
-                ),
-                (
-                    "full push (per pair)",
-                    rate(n, budget, 5, || {
-                        failures += push_all::<plumbfit::Full>(&xs, &ys)
-                    }),
-                ),
-            ] {
-                rows.push(Row {
-                    what: name.into(),
-                    n,
-                    rate: r,
-                    unit: "pairs/s",
-                    ratio: Some(r / ceil),
-                });
-            }
         }
     }
+    failures += refused.get();
 
     // Merges of two framed accumulators with different frames (the general
     // case: shift and slope change).
