@@ -1,6 +1,8 @@
 //! Full-tier co-moments (orders 2–4) and lag-1 sums against exact rational
 //! two-pass sums, through pushes, chunked extends and merges of
 //! accumulators whose provisional frames differ.
+// Test helpers unwrap: a failure is a failed test with its message.
+#![allow(clippy::unwrap_used, clippy::needless_range_loop)]
 
 #[path = "support/exact.rs"]
 mod exact;

@@ -1,6 +1,8 @@
 //! Every refused input returns its typed error and leaves the accumulator
 //! bit-for-bit as it was (compared with `PartialEq` on the whole state and
 //! with the persisted summary).
+// Test helpers unwrap: a failure is a failed test with its message.
+#![allow(clippy::unwrap_used)]
 
 use plumbfit::{FitOptions, FullMoments, LeanMoments, LineError, MomentsError, PairMoments, Tier};
 

@@ -1,5 +1,7 @@
 //! Line accumulator against exact rational arithmetic, merges, invariances
 //! and the offset case that defeats textbook sum formulas.
+// Test helpers unwrap: a failure is a failed test with its message.
+#![allow(clippy::unwrap_used, clippy::needless_range_loop)]
 
 #[path = "support/exact.rs"]
 mod exact;

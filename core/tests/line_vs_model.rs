@@ -1,5 +1,7 @@
 //! The line accumulator and the model accumulator (p = 2, rows [1, x])
 //! agree on straight lines: estimates, standard errors, ANOVA and intervals.
+// Test helpers unwrap: a failure is a failed test with its message.
+#![allow(clippy::unwrap_used)]
 
 use plumbfit::model::{InterceptMode, ModelFitOptions, ModelMoments};
 use plumbfit::{FitOptions, LeanMoments};

@@ -1,5 +1,7 @@
 //! Forgetting is weighted least squares with weights λ^age, and the two
 //! weight meanings give the covariance they promise.
+// Test helpers unwrap: a failure is a failed test with its message.
+#![allow(clippy::unwrap_used)]
 
 #[path = "support/exact.rs"]
 mod exact;

@@ -2,7 +2,7 @@
 //! converted exactly, sums are carried without rounding, and only the final
 //! quantity is rounded to f64. This is the independent ground truth the
 //! accumulator is compared with.
-#![allow(dead_code)]
+#![allow(dead_code, clippy::expect_used)]
 
 use num_bigint::BigInt;
 use num_rational::BigRational;
