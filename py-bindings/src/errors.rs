@@ -23,6 +23,7 @@
 //! (position of the offending value in the call's input, or `None`).
 
 use plumbfit::model::ModelError;
+use plumbfit::state::StateError;
 use plumbfit::{LineError, MomentsError};
 use pyo3::prelude::*;
 use pyo3::sync::PyOnceLock;
@@ -306,6 +307,13 @@ impl From<ModelError> for Failure {
             ModelError::Overflow => Failure::new(Kind::StateOverflow, code, msg, None),
             _ => by_range(code, msg),
         }
+    }
+}
+
+impl From<StateError> for Failure {
+    fn from(e: StateError) -> Self {
+        // Every state error is about the bytes handed in (codes 50-59).
+        Failure::new(Kind::StateFormat, e.code(), e.to_string(), None)
     }
 }
 

@@ -12,6 +12,7 @@ mod diag;
 mod errors;
 mod line;
 mod model;
+mod persist;
 
 use pyo3::prelude::*;
 
@@ -40,6 +41,8 @@ fn _native(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_class::<model::ModelAccumulator>()?;
     m.add_class::<model::ModelFit>()?;
     m.add_function(wrap_pyfunction!(model::fit_polynomial, m)?)?;
+    m.add_function(wrap_pyfunction!(persist::load_state, m)?)?;
+    m.add_function(wrap_pyfunction!(persist::peek_state, m)?)?;
     m.add_function(wrap_pyfunction!(arrays::_conversion_count, m)?)?;
     m.add("__version__", env!("CARGO_PKG_VERSION"))?;
     m.add("GIL_RELEASE_PAIRS", line::GIL_RELEASE_PAIRS)?;

@@ -10,7 +10,7 @@ use plumbfit::{
 };
 use pyo3::exceptions::{PyTypeError, PyValueError};
 use pyo3::prelude::*;
-use pyo3::types::{PyDict, PyFloat, PyList, PyTuple};
+use pyo3::types::{PyBytes, PyDict, PyFloat, PyList, PyTuple};
 
 /// Pairs at or above this count are added with the GIL released.
 ///
@@ -284,6 +284,32 @@ impl LineAccumulator {
             self.tier(),
             self.count()
         )
+    }
+
+    /// The state in the persisted state format (versioned, checksummed,
+    /// little-endian; the same bytes the C and Rust doors write).
+    fn to_bytes<'py>(&self, py: Python<'py>) -> Bound<'py, PyBytes> {
+        crate::persist::bytes(py, &crate::persist::line_to_bytes(&self.acc))
+    }
+
+    /// Rebuilds an accumulator (of the tier the bytes hold) from
+    /// `to_bytes()` output or any other door's saved state. Raises
+    /// `StateFormatError` for bytes that are not a valid line state.
+    #[staticmethod]
+    fn from_bytes(data: &[u8]) -> PyResult<Self> {
+        Ok(LineAccumulator {
+            acc: crate::persist::line_from_bytes(data)?,
+        })
+    }
+
+    /// Pickles through the persisted state format.
+    #[allow(clippy::type_complexity)]
+    fn __reduce__<'py>(
+        slf: &Bound<'py, Self>,
+    ) -> PyResult<(Bound<'py, PyAny>, (Bound<'py, PyBytes>,))> {
+        let py = slf.py();
+        let ctor = slf.get_type().getattr("from_bytes")?;
+        Ok((ctor, (slf.borrow().to_bytes(py),)))
     }
 }
 

@@ -10,7 +10,7 @@ use plumbfit::model::{
 };
 use pyo3::exceptions::PyValueError;
 use pyo3::prelude::*;
-use pyo3::types::{PyDict, PyFloat, PyList};
+use pyo3::types::{PyBytes, PyDict, PyFloat, PyList};
 
 /// One-pass least-squares accumulator for a linear model with `params`
 /// coefficients (multiple or polynomial regression).
@@ -237,6 +237,30 @@ impl ModelAccumulator {
             Ok(o) => self.inner == o.borrow().inner,
             Err(_) => false,
         }
+    }
+
+    /// The state in the persisted state format (same bytes as the C and
+    /// Rust doors).
+    fn to_bytes<'py>(&self, py: Python<'py>) -> Bound<'py, PyBytes> {
+        crate::persist::bytes(py, &self.inner.save_to_vec())
+    }
+
+    /// Rebuilds an accumulator from saved state; `StateFormatError` for
+    /// bytes that are not a valid model state.
+    #[staticmethod]
+    fn from_bytes(data: &[u8]) -> PyResult<Self> {
+        Ok(ModelAccumulator {
+            inner: crate::persist::model_from_bytes(data)?,
+        })
+    }
+
+    /// Pickles through the persisted state format.
+    fn __reduce__<'py>(
+        slf: &Bound<'py, Self>,
+    ) -> PyResult<(Bound<'py, PyAny>, (Bound<'py, PyBytes>,))> {
+        let py = slf.py();
+        let ctor = slf.get_type().getattr("from_bytes")?;
+        Ok((ctor, (slf.borrow().to_bytes(py),)))
     }
 
     fn __repr__(&self) -> String {

@@ -57,6 +57,8 @@ from ._native import (
     __version__,
     anderson_darling,
     fit_polynomial,
+    load_state,
+    peek_state,
     shapiro_wilk,
 )
 
@@ -95,5 +97,7 @@ __all__ = [
     "__version__",
     "anderson_darling",
     "fit_polynomial",
+    "load_state",
+    "peek_state",
     "shapiro_wilk",
 ]
