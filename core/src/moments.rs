@@ -510,9 +510,11 @@ impl<T: Tier> PairMoments<T> {
                 return Err(MomentsError::Overflow);
             }
         }
+        // A count at the top of the range only comes from a forged state.
+        let count = self.count.checked_add(1).ok_or(MomentsError::Overflow)?;
         let was_empty = self.count == 0;
         let last = self.last_pair();
-        self.count += 1;
+        self.count = count;
         self.w = w_new;
         self.w2 = w2;
         self.mx = mx;
@@ -770,9 +772,10 @@ impl<T: Tier> PairMoments<T> {
                     .chain(h.lag.iter())
                     .all(|v| v.is_finite())
             });
-        if !ok {
+        let count = self.count.checked_add(c.n as u64);
+        let Some(count) = count.filter(|_| ok) else {
             return Err(MomentsError::Overflow);
-        }
+        };
         self.w = w;
         self.w2 = w2;
         self.mx = mx;
@@ -780,7 +783,7 @@ impl<T: Tier> PairMoments<T> {
         self.sxx = sxx;
         self.sxv = sxv;
         self.svv = svv;
-        self.count += c.n as u64;
+        self.count = count;
         self.hi = hi;
         Ok(())
     }

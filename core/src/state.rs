@@ -377,7 +377,8 @@ pub struct StateInfo {
     pub version: u16,
     /// Number of model coefficients `p`; 0 for line states.
     pub params: u16,
-    /// Pairs or rows accumulated.
+    /// Pairs or rows accumulated, as stored (not yet validated; saturated
+    /// to the `u64` range).
     pub count: u64,
     /// Total encoded length in bytes.
     pub len: usize,
@@ -527,9 +528,11 @@ pub fn declared_len(header: &[u8]) -> Result<usize, StateError> {
 pub fn peek(bytes: &[u8]) -> Result<StateInfo, StateError> {
     let (h, payload) = open(bytes)?;
     let count = match h.kind {
-        StateKind::LineLean | StateKind::LineFull => u64_at(payload, 0) + payload[9] as u64,
-        // Validated as an integer by a restore; here a plain conversion
-        // (saturating for out-of-range values).
+        // The payload is not validated here: saturate rather than trust it
+        // (a restore checks both counts).
+        StateKind::LineLean | StateKind::LineFull => {
+            u64_at(payload, 0).saturating_add(payload[9] as u64)
+        }
         StateKind::Model => f64_at(payload, 16) as u64,
     };
     Ok(StateInfo {
@@ -755,10 +758,6 @@ fn check_higher(acc: &PairMoments<Full>, h: &HigherMoments) -> Result<(), StateE
     check(inside(h.first) && inside(h.last), StateField::Ends)
 }
 
-/// Largest pair count a line state may hold (merges refuse to pass it, so
-/// no count arithmetic can wrap).
-const MAX_COUNT: u64 = 1 << 63;
-
 /// Largest count for which a sum of unit weights is exact in `f64`.
 const EXACT_COUNT: u64 = 1 << 53;
 
@@ -896,7 +895,8 @@ fn check_base<T: Tier>(a: &PairMoments<T>) -> Result<(), StateError> {
         return check(a.svv == 0.0, StateField::Svv);
     }
     check(k == 0, StateField::StageLen)?;
-    check(a.count >= 1 && a.count <= MAX_COUNT, StateField::Count)?;
+    // Any count: every update refuses to wrap it.
+    check(a.count >= 1, StateField::Count)?;
     check(a.w.is_finite() && a.w > 0.0, StateField::WeightSum)?;
     check(a.w2.is_finite() && a.w2 >= 0.0, StateField::WeightSqSum)?;
     if unit && a.count <= EXACT_COUNT {
