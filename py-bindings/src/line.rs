@@ -14,11 +14,12 @@ use pyo3::types::{PyBytes, PyDict, PyFloat, PyList, PyTuple};
 
 /// Pairs at or above this count are added with the GIL released.
 ///
-/// Measured on the development machine (benches/python/bench_line.py
-/// `--gil-threshold`): releasing and re-taking the GIL costs about 0.1 µs,
-/// while the lean kernel adds about 1 ns per pair, so from 4096 pairs the
-/// release costs under 3 % of the call.
-pub const GIL_RELEASE_PAIRS: usize = 4096;
+/// The lean kernel adds about 0.5 ns per pair (benches/python/bench_line.py,
+/// 10⁷ pairs in 22 ms), so a call at the threshold holds the GIL for about
+/// 8 µs at most, while releasing and re-taking it costs about 0.1 µs (from
+/// memory; the bench's below/at-threshold pair of figures could not resolve
+/// it on the loaded development machine): about 1 % of such a call.
+pub const GIL_RELEASE_PAIRS: usize = 16384;
 
 // Held inline in a heap-allocated Python object: boxing the full tier
 // would only add an indirection to every push.
