@@ -67,10 +67,15 @@
 //! Double-double costs about ten times plain double per operation. The
 //! block paths ([`ModelMoments::extend_rows`], `extend_powers`) run several
 //! independent factors side by side so the compiler can vectorise them,
-//! then merge. Measured at `p = 8` (CPU time of one core of a heavily
-//! shared AMD EPYC): 1.4–1.7 million rows/s for a baseline x86-64 build
-//! (SSE2, no FMA) and 5.5–7 million rows/s when built for `x86-64-v3`
-//! (AVX2 and FMA; the FMA path needs the `std` feature for `f64::mul_add`).
+//! then merge. With the `simd` feature the block and row updates run, on
+//! CPUs with AVX2 and FMA, in code compiled for those instructions and
+//! chosen at run time (`plumbfit-kernels` makes the one `unsafe` call);
+//! the exact products then take one fused multiply-add instead of
+//! Dekker's split. Both forms are exact, so the two paths give the same
+//! bits. Measured at `p = 8` (CPU time of one core of a heavily shared AMD
+//! EPYC): 1.4–1.7 million rows/s on the portable path (SSE2, no FMA) and
+//! 5.5–6.5 million rows/s on the AVX2 + FMA path of the same portable
+//! build, as fast as a build for `x86-64-v3`.
 //!
 //! # Limits
 //! Values above about 1e150 in magnitude (so that squared terms pass
@@ -250,29 +255,27 @@ mod kern {
     }
 
     /// `(p, e)` with `p = fl(a·b)` and `p + e = a·b` exactly, `a` given
-    /// pre-split. With a hardware FMA enabled at compile time (and `std`,
-    /// for `f64::mul_add`) this is two instructions and the split is dead
-    /// code; otherwise Dekker's product.
+    /// pre-split. With `FMA` (code run under the caller's run-time AVX2 +
+    /// FMA dispatch) or a hardware FMA enabled at compile time, and `std`
+    /// for `f64::mul_add`, this is two instructions and the split is dead
+    /// code; otherwise Dekker's product. Both forms give the exact error,
+    /// so the choice changes speed, not bits.
     #[inline(always)]
-    pub fn two_prod_split(a: f64, ah: f64, al: f64, b: f64) -> (f64, f64) {
+    pub fn two_prod_split<const FMA: bool>(a: f64, ah: f64, al: f64, b: f64) -> (f64, f64) {
         let p = a * b;
-        #[cfg(all(feature = "std", target_feature = "fma"))]
-        {
-            let _ = (ah, al);
-            (p, a.mul_add(b, -p))
+        #[cfg(feature = "std")]
+        if FMA || cfg!(target_feature = "fma") {
+            return (p, a.mul_add(b, -p));
         }
-        #[cfg(not(all(feature = "std", target_feature = "fma")))]
-        {
-            let (bh, bl) = split(b);
-            (p, prod_err(p, ah, al, bh, bl))
-        }
+        let (bh, bl) = split(b);
+        (p, prod_err(p, ah, al, bh, bl))
     }
 
     /// Exact product `(p, e)` of two doubles.
     #[inline(always)]
-    pub fn two_prod(a: f64, b: f64) -> (f64, f64) {
+    pub fn two_prod<const FMA: bool>(a: f64, b: f64) -> (f64, f64) {
         let (ah, al) = split(a);
-        two_prod_split(a, ah, al, b)
+        two_prod_split::<FMA>(a, ah, al, b)
     }
 
     /// `(s, e)` with `s + e = a + b` exactly, `|e| ≤ ulp(s)/2` (Dekker's
@@ -285,15 +288,22 @@ mod kern {
 
     /// Double-double product.
     #[inline(always)]
-    pub fn mul(ah: f64, al: f64, bh: f64, bl: f64) -> (f64, f64) {
-        let (p, e) = two_prod(ah, bh);
+    pub fn mul<const FMA: bool>(ah: f64, al: f64, bh: f64, bl: f64) -> (f64, f64) {
+        let (p, e) = two_prod::<FMA>(ah, bh);
         fast_two_sum(p, e + (ah * bl + al * bh))
     }
 
     /// Double-double product with `a` given pre-split (`ahh + ahl = ah`).
     #[inline(always)]
-    pub fn mul_split(ah: f64, al: f64, ahh: f64, ahl: f64, bh: f64, bl: f64) -> (f64, f64) {
-        let (p, e) = two_prod_split(ah, ahh, ahl, bh);
+    pub fn mul_split<const FMA: bool>(
+        ah: f64,
+        al: f64,
+        ahh: f64,
+        ahl: f64,
+        bh: f64,
+        bl: f64,
+    ) -> (f64, f64) {
+        let (p, e) = two_prod_split::<FMA>(ah, ahh, ahl, bh);
         fast_two_sum(p, e + (ah * bl + al * bh))
     }
 
@@ -310,7 +320,7 @@ mod kern {
     /// `a + b·c` with `b` given pre-split (`bhh + bhl = bh`).
     #[allow(clippy::too_many_arguments)]
     #[inline(always)]
-    pub fn fma(
+    pub fn fma<const FMA: bool>(
         ah: f64,
         al: f64,
         bh: f64,
@@ -320,7 +330,7 @@ mod kern {
         ch: f64,
         cl: f64,
     ) -> (f64, f64) {
-        let (p, e) = two_prod_split(bh, bhh, bhl, ch);
+        let (p, e) = two_prod_split::<FMA>(bh, bhh, bhl, ch);
         let e = e + (bh * cl + bl * ch);
         let s = ah + p;
         let bb = s - ah;
@@ -330,9 +340,9 @@ mod kern {
 
     /// Double-double reciprocal `1 / b` (about 104 correct bits).
     #[inline(always)]
-    pub fn recip(bh: f64, bl: f64) -> (f64, f64) {
+    pub fn recip<const FMA: bool>(bh: f64, bl: f64) -> (f64, f64) {
         let q1 = 1.0 / bh;
-        let (p, e) = two_prod(bh, q1);
+        let (p, e) = two_prod::<FMA>(bh, q1);
         // 1 − p is exact (Sterbenz): p lies within an ulp of 1.
         let r = ((1.0 - p) - e) - bl * q1;
         fast_two_sum(q1, r * q1)
@@ -496,7 +506,7 @@ impl<const N: usize> Work<N> {
     /// (empty column and zero regressor) leaves the weight and factor
     /// unchanged, and a zero weight makes the whole update a no-op.
     #[inline(always)]
-    fn include(&mut self, start: usize, o: &mut Obs<N>) {
+    fn include<const FMA: bool>(&mut self, start: usize, o: &mut Obs<N>) {
         let p = self.p;
         let mut wh = o.wh;
         let mut wl = o.wl;
@@ -513,18 +523,18 @@ impl<const N: usize> Work<N> {
             for l in 0..N {
                 let (xih, xil) = (o.xh[i][l], o.xl[i][l]);
                 let (di_h, di_l) = (self.dh[i][l], self.dl[i][l]);
-                let (wxh, wxl) = kern::mul(wh[l], wl[l], xih, xil);
-                let (th, tl) = kern::mul(wxh, wxl, xih, xil);
+                let (wxh, wxl) = kern::mul::<FMA>(wh[l], wl[l], xih, xil);
+                let (th, tl) = kern::mul::<FMA>(wxh, wxl, xih, xil);
                 let (nh, nl) = kern::add(di_h, di_l, th, tl);
                 let zero = nh == 0.0;
                 let (ih, il) =
-                    kern::recip(if zero { 1.0 } else { nh }, if zero { 0.0 } else { nl });
-                let (sh, sl) = kern::mul(wxh, wxl, ih, il);
-                let (ch, cl) = kern::mul(di_h, di_l, ih, il);
+                    kern::recip::<FMA>(if zero { 1.0 } else { nh }, if zero { 0.0 } else { nl });
+                let (sh, sl) = kern::mul::<FMA>(wxh, wxl, ih, il);
+                let (ch, cl) = kern::mul::<FMA>(di_h, di_l, ih, il);
                 // An empty column met by a zero regressor: identity rotation.
                 let (sh, sl) = if zero { (0.0, 0.0) } else { (sh, sl) };
                 let (ch, cl) = if zero { (1.0, 0.0) } else { (ch, cl) };
-                let (nwh, nwl) = kern::mul(wh[l], wl[l], ch, cl);
+                let (nwh, nwl) = kern::mul::<FMA>(wh[l], wl[l], ch, cl);
                 wh[l] = nwh;
                 wl[l] = nwl;
                 self.dh[i][l] = nh;
@@ -563,12 +573,12 @@ impl<const N: usize> Work<N> {
                 // cheaper, and the sum cannot cancel by more than a factor 2.
                 for (((rh, rl), xh), xl) in entries {
                     for l in 0..N {
-                        let (xkh, xkl) = kern::fma(
+                        let (xkh, xkl) = kern::fma::<FMA>(
                             xh[l], xl[l], nx[0][l], nx[1][l], nx[2][l], nx[3][l], rh[l], rl[l],
                         );
                         xh[l] = xkh;
                         xl[l] = xkl;
-                        let (nrh, nrl) = kern::fma(
+                        let (nrh, nrl) = kern::fma::<FMA>(
                             rh[l], rl[l], sb[0][l], sb[1][l], sb[2][l], sb[3][l], xkh, xkl,
                         );
                         rh[l] = nrh;
@@ -583,15 +593,17 @@ impl<const N: usize> Work<N> {
                 for (((rh, rl), xh), xl) in entries {
                     for l in 0..N {
                         let (oxh, oxl) = (xh[l], xl[l]);
-                        let (xkh, xkl) = kern::fma(
+                        let (xkh, xkl) = kern::fma::<FMA>(
                             oxh, oxl, nx[0][l], nx[1][l], nx[2][l], nx[3][l], rh[l], rl[l],
                         );
                         xh[l] = xkh;
                         xl[l] = xkl;
-                        let (crh, crl) =
-                            kern::mul_split(cb[0][l], cb[1][l], cb[2][l], cb[3][l], rh[l], rl[l]);
-                        let (nrh, nrl) =
-                            kern::fma(crh, crl, sb[0][l], sb[1][l], sb[2][l], sb[3][l], oxh, oxl);
+                        let (crh, crl) = kern::mul_split::<FMA>(
+                            cb[0][l], cb[1][l], cb[2][l], cb[3][l], rh[l], rl[l],
+                        );
+                        let (nrh, nrl) = kern::fma::<FMA>(
+                            crh, crl, sb[0][l], sb[1][l], sb[2][l], sb[3][l], oxh, oxl,
+                        );
                         rh[l] = nrh;
                         rl[l] = nrl;
                     }
@@ -601,15 +613,15 @@ impl<const N: usize> Work<N> {
                 let (oyh, oyl) = (yh[l], yl[l]);
                 let (th0, tl0) = (self.th[i][l], self.tl[i][l]);
                 let (nyh, nyl) =
-                    kern::fma(oyh, oyl, nx[0][l], nx[1][l], nx[2][l], nx[3][l], th0, tl0);
+                    kern::fma::<FMA>(oyh, oyl, nx[0][l], nx[1][l], nx[2][l], nx[3][l], th0, tl0);
                 yh[l] = nyh;
                 yl[l] = nyl;
                 let (th, tl) = if cheap {
-                    kern::fma(th0, tl0, sb[0][l], sb[1][l], sb[2][l], sb[3][l], nyh, nyl)
+                    kern::fma::<FMA>(th0, tl0, sb[0][l], sb[1][l], sb[2][l], sb[3][l], nyh, nyl)
                 } else {
                     let (ch, cl) =
-                        kern::mul_split(cb[0][l], cb[1][l], cb[2][l], cb[3][l], th0, tl0);
-                    kern::fma(ch, cl, sb[0][l], sb[1][l], sb[2][l], sb[3][l], oyh, oyl)
+                        kern::mul_split::<FMA>(cb[0][l], cb[1][l], cb[2][l], cb[3][l], th0, tl0);
+                    kern::fma::<FMA>(ch, cl, sb[0][l], sb[1][l], sb[2][l], sb[3][l], oyh, oyl)
                 };
                 self.th[i][l] = th;
                 self.tl[i][l] = tl;
@@ -618,8 +630,8 @@ impl<const N: usize> Work<N> {
         }
         for l in 0..N {
             // SSE += w·e², e the residual of the row after all rotations.
-            let (eh, el) = kern::mul(yh[l], yl[l], yh[l], yl[l]);
-            let (ah, al) = kern::mul(wh[l], wl[l], eh, el);
+            let (eh, el) = kern::mul::<FMA>(yh[l], yl[l], yh[l], yl[l]);
+            let (ah, al) = kern::mul::<FMA>(wh[l], wl[l], eh, el);
             let (sh, sl) = kern::add(self.sh[l], self.sl[l], ah, al);
             self.sh[l] = sh;
             self.sl[l] = sl;
@@ -628,7 +640,7 @@ impl<const N: usize> Work<N> {
 
     /// Feeds lane `lane` of `other` (a factor over the same `p`) into lane 0
     /// of `self`, row by row, as weighted observations.
-    fn absorb_lane<const M: usize>(&mut self, other: &Work<M>, lane: usize) {
+    fn absorb_lane<const M: usize, const FMA: bool>(&mut self, other: &Work<M>, lane: usize) {
         let p = self.p;
         for i in 0..p {
             if other.dh[i][lane] == 0.0 {
@@ -645,7 +657,7 @@ impl<const N: usize> Work<N> {
             o.yl[0] = other.tl[i][lane];
             o.wh[0] = other.dh[i][lane];
             o.wl[0] = other.dl[i][lane];
-            self.include(i, &mut o);
+            self.include::<FMA>(i, &mut o);
         }
         let (sh, sl) = kern::add(self.sh[0], self.sl[0], other.sh[lane], other.sl[lane]);
         self.sh[0] = sh;
@@ -793,7 +805,14 @@ fn state_push(s: &mut [f64], p: usize, row: &[f64], y: f64, w: f64) -> Result<()
     }
     o.yh[0] = y;
     o.wh[0] = w;
-    work.include(0, &mut o);
+    #[cfg(feature = "simd")]
+    let fast = FMA_DISPATCH.load(core::sync::atomic::Ordering::Relaxed)
+        && plumbfit_kernels::dispatch::with_avx2_fma(|| work.include::<true>(0, &mut o)).is_some();
+    #[cfg(not(feature = "simd"))]
+    let fast = false;
+    if !fast {
+        work.include::<false>(0, &mut o);
+    }
     let mut t = Tally::read(s);
     t.add_row(row[0], w);
     if !work.is_finite() || !t.wsq.is_finite() {
@@ -809,7 +828,7 @@ trait RowSource {
     /// Column-0 value of row `r` (for intercept detection).
     fn x0(&self, r: usize) -> f64;
     /// Writes row `r` into lane `l` of `o`.
-    fn fill<const N: usize>(&self, r: usize, l: usize, o: &mut Obs<N>);
+    fn fill<const N: usize, const FMA: bool>(&self, r: usize, l: usize, o: &mut Obs<N>);
 }
 
 /// Row-major `n × p` doubles.
@@ -824,7 +843,7 @@ impl RowSource for FlatRows<'_> {
         self.rows[r * self.p]
     }
     #[inline(always)]
-    fn fill<const N: usize>(&self, r: usize, l: usize, o: &mut Obs<N>) {
+    fn fill<const N: usize, const FMA: bool>(&self, r: usize, l: usize, o: &mut Obs<N>) {
         let row = &self.rows[r * self.p..(r + 1) * self.p];
         // The low parts are reset too: `include` leaves the rotated
         // working row in the buffer.
@@ -847,13 +866,13 @@ impl RowSource for PowerRows<'_> {
         1.0
     }
     #[inline(always)]
-    fn fill<const N: usize>(&self, r: usize, l: usize, o: &mut Obs<N>) {
+    fn fill<const N: usize, const FMA: bool>(&self, r: usize, l: usize, o: &mut Obs<N>) {
         let x = self.xs[r];
         let (mut h, mut lo) = (1.0, 0.0);
         for j in 0..self.p {
             o.xh[j][l] = h;
             o.xl[j][l] = lo;
-            let (ph, pl) = kern::two_prod(h, x);
+            let (ph, pl) = kern::two_prod::<FMA>(h, x);
             (h, lo) = kern::fast_two_sum(ph, pl + lo * x);
         }
     }
@@ -932,6 +951,64 @@ fn fold_rows<S: RowSource>(
     for r in 0..n {
         t.add_row(src.x0(r), weight(r));
     }
+    let main = fold_dispatch(s, p, src, ys, ws);
+    if !main.is_finite() || !t.wsq.is_finite() || !t.wsum.is_finite() {
+        return Err(ModelError::Overflow);
+    }
+    main.store_lane(0, s);
+    t.write(s);
+    Ok(())
+}
+
+/// Whether [`fold_dispatch`] may take the AVX2 + FMA path.
+#[cfg(feature = "simd")]
+static FMA_DISPATCH: core::sync::atomic::AtomicBool = core::sync::atomic::AtomicBool::new(true);
+
+/// Allows (`true`, the default) or forbids the run-time AVX2 + FMA path of
+/// the block updates, process-wide; for tests and benchmarks that compare
+/// the two paths. Without the `simd` feature there is only one path.
+#[doc(hidden)]
+pub fn set_fma_dispatch(enabled: bool) {
+    #[cfg(feature = "simd")]
+    FMA_DISPATCH.store(enabled, core::sync::atomic::Ordering::Relaxed);
+    #[cfg(not(feature = "simd"))]
+    let _ = enabled;
+}
+
+/// Folds validated rows into a copy of the factor, on the AVX2 + FMA path
+/// when the CPU has it (with the `simd` feature; the kernels crate does the
+/// one `unsafe` call), else on the portable path. Both paths compute the
+/// same exact products, so they give the same bits; only speed differs.
+fn fold_dispatch<S: RowSource>(
+    s: &[f64],
+    p: usize,
+    src: &S,
+    ys: &[f64],
+    ws: Option<&[f64]>,
+) -> Work<1> {
+    #[cfg(feature = "simd")]
+    if FMA_DISPATCH.load(core::sync::atomic::Ordering::Relaxed) {
+        if let Some(w) =
+            plumbfit_kernels::dispatch::with_avx2_fma(|| fold_work::<S, true>(s, p, src, ys, ws))
+        {
+            return w;
+        }
+    }
+    fold_work::<S, false>(s, p, src, ys, ws)
+}
+
+/// The body of [`fold_rows`]: inlined into each dispatch path so the whole
+/// update is compiled for that path's instruction set.
+#[inline(always)]
+fn fold_work<S: RowSource, const FMA: bool>(
+    s: &[f64],
+    p: usize,
+    src: &S,
+    ys: &[f64],
+    ws: Option<&[f64]>,
+) -> Work<1> {
+    let n = ys.len();
+    let weight = |r: usize| ws.map_or(1.0, |w| w[r]);
     let mut main = Work::<1>::empty(p);
     main.load_lane(0, s);
     // The lane path keeps about 20 KiB of factors on the stack; without
@@ -939,10 +1016,10 @@ fn fold_rows<S: RowSource>(
     if n < LANE_MIN_ROWS || !cfg!(feature = "std") {
         for r in 0..n {
             let mut o = Obs::<1>::zero();
-            src.fill(r, 0, &mut o);
+            src.fill::<1, FMA>(r, 0, &mut o);
             o.yh[0] = ys[r];
             o.wh[0] = weight(r);
-            main.include(0, &mut o);
+            main.include::<FMA>(0, &mut o);
         }
     } else {
         // Lane 0 continues the existing factor, the other lanes start
@@ -957,7 +1034,7 @@ fn fold_rows<S: RowSource>(
             for l in 0..LANES {
                 let r = r0 + l;
                 if r < n {
-                    src.fill(r, l, &mut o);
+                    src.fill::<LANES, FMA>(r, l, &mut o);
                     o.yh[l] = ys[r];
                     o.wh[l] = weight(r);
                 } else {
@@ -970,22 +1047,17 @@ fn fold_rows<S: RowSource>(
                     o.wh[l] = 0.0;
                 }
             }
-            lanes.include(0, &mut o);
+            lanes.include::<FMA>(0, &mut o);
             r0 += LANES;
         }
         let mut base = Work::<1>::empty(p);
         copy_lane(&lanes, 0, &mut base);
         for l in 1..LANES {
-            base.absorb_lane(&lanes, l);
+            base.absorb_lane::<LANES, FMA>(&lanes, l);
         }
         main = base;
     }
-    if !main.is_finite() || !t.wsq.is_finite() || !t.wsum.is_finite() {
-        return Err(ModelError::Overflow);
-    }
-    main.store_lane(0, s);
-    t.write(s);
-    Ok(())
+    main
 }
 
 fn copy_lane<const N: usize>(from: &Work<N>, lane: usize, to: &mut Work<1>) {
@@ -1016,7 +1088,7 @@ fn state_merge(s: &mut [f64], p: usize, other: &[f64]) -> Result<(), ModelError>
     main.load_lane(0, s);
     let mut src = Work::<1>::empty(p);
     src.load_lane(0, other);
-    main.absorb_lane(&src, 0);
+    main.absorb_lane::<1, false>(&src, 0);
     let mut t = Tally::read(s);
     t.merge(&Tally::read(other));
     let forgot = s[H_FORGOT] != 0.0 || other[H_FORGOT] != 0.0;
@@ -1919,7 +1991,7 @@ mod tests {
 
     #[test]
     fn kernel_recip_is_double_double_accurate() {
-        let (h, l) = kern::recip(3.0, 0.0);
+        let (h, l) = kern::recip::<false>(3.0, 0.0);
         let back = Dd { hi: h, lo: l }.mul_f64(3.0).sub(Dd::from_f64(1.0));
         // 2^-100 ≈ 8e-31: a plain double reciprocal leaves ~1e-17.
         assert!(back.to_f64().abs() < 1e-30, "{back:?}");

@@ -29,6 +29,8 @@
 #![deny(missing_docs)]
 #![allow(clippy::too_many_arguments)]
 
+pub mod dispatch;
+
 /// Sums of one chunk about a local shift `(xc, yc)` and slope `b0`, with
 /// `dx = x − xc`, `v = (y − yc) − b0·dx`.
 #[derive(Clone, Copy, Debug, Default, PartialEq)]
