@@ -1,6 +1,7 @@
 //! The line accumulator scores LRE ≥ 13.0 on every certified value of NIST
 //! StRD Norris, NoInt1 and NoInt2 (source: NIST StRD certified values,
 //! CERTIFIED.json), in file order, reversed, and split-in-three-and-merged.
+#![allow(clippy::unwrap_used)]
 
 use reference_checks::{refdata_dir, run_line_checks, under_ci, Report, LINE_DATASETS, ORDERS};
 
@@ -47,4 +48,38 @@ fn lre_definition() {
     assert!((lre(1.0 + 1e-10, 1.0) - 10.0).abs() < 1e-3);
     assert!((lre(1e-14, 0.0) - 14.0).abs() < 1e-9);
     assert_eq!(lre(f64::NAN, 1.0), 0.0);
+}
+
+/// One `extend` call over the whole file (the chunk kernel path, which the
+/// three orders above exercise only briefly) keeps the same 13 digits
+/// (source: NIST StRD Norris certified values).
+#[test]
+fn one_extend_call_keeps_thirteen_digits() {
+    use reference_checks::{score_line, strd};
+    let dir = refdata_dir().join("nist-strd");
+    let (cert, data) = match (
+        strd::load_certified(&dir),
+        strd::load_dataset(&dir, "Norris"),
+    ) {
+        (Ok(c), Ok(d)) => (c, d),
+        (Err(e), _) | (_, Err(e)) => {
+            assert!(!under_ci(), "reference data missing under CI: {e}");
+            eprintln!(
+                "SKIPPED: reference data not found at {}: {e}",
+                dir.display()
+            );
+            return;
+        }
+    };
+    let xs: Vec<f64> = data.rows.iter().map(|r| r[1]).collect();
+    let ys: Vec<f64> = data.rows.iter().map(|r| r[0]).collect();
+    let mut acc = plumbfit::LeanMoments::new();
+    acc.extend(&xs, &ys).unwrap();
+    let mut full = plumbfit::FullMoments::new();
+    full.extend(&xs, &ys).unwrap();
+    for fit in [acc.fit().unwrap(), full.fit().unwrap()] {
+        for (value, lre) in score_line(&cert["Norris"], &fit) {
+            assert!(lre >= MIN_LINE_LRE, "Norris/extend/{value}: LRE {lre:.2}");
+        }
+    }
 }
