@@ -138,9 +138,10 @@ ALL_STRD = [
     "Wampler4",
     "Wampler5",
 ]
-# reference-checks holds the core's model accumulator to LRE >= 13.5 on all
-# 141 certified values; the binding adds no arithmetic. One point of slack
-# for the block path (`extend`) on the ill-conditioned files.
+# reference-checks holds the core's model accumulator to LRE >= 13.5 on every
+# certified value (Wampler2 B2-B4 to the 13.2 ceiling of its double-rounded
+# inputs); the binding adds no arithmetic. One point of slack for the block
+# path (`extend`) on the ill-conditioned files.
 MIN_LRE = 12.5
 
 
