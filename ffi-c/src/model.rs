@@ -246,6 +246,40 @@ unsafe fn with_fit(
     }
 }
 
+/// Fits, then writes `op(fit, row)` to `out`: the shared body of the
+/// per-row scalar queries (prediction, leverage).
+///
+/// # Safety
+/// `m` NULL or a live handle; `row` NULL or valid for `row_len` doubles;
+/// `out` NULL or valid for one double.
+unsafe fn row_scalar(
+    m: *const pf_model,
+    intercept: u32,
+    row: *const f64,
+    row_len: usize,
+    out: *mut f64,
+    op: impl FnOnce(&ModelFit, &[f64]) -> Result<f64, ModelError>,
+) -> pf_status {
+    if out.is_null() || m.is_null() {
+        return PF_ERR_NULL_POINTER;
+    }
+    // SAFETY: forwarded contract.
+    let row = match unsafe { slice_in(row, row_len) } {
+        Ok(r) => r,
+        Err(e) => return e,
+    };
+    // SAFETY: forwarded contract; `out` checked.
+    unsafe {
+        with_fit(m, intercept, |f| match op(f, row) {
+            Ok(v) => {
+                write_out(out, v);
+                PF_OK
+            }
+            Err(e) => model_err(e),
+        })
+    }
+}
+
 /// Writes an empty state for `params` coefficients at `buf`.
 ///
 /// # Safety
@@ -828,24 +862,8 @@ pub unsafe extern "C" fn pf_model_predict(
     row_len: usize,
     out: *mut f64,
 ) -> pf_status {
-    if out.is_null() || m.is_null() {
-        return PF_ERR_NULL_POINTER;
-    }
     // SAFETY: forwarded contract.
-    let row = match unsafe { slice_in(row, row_len) } {
-        Ok(r) => r,
-        Err(e) => return e,
-    };
-    // SAFETY: forwarded contract; `out` checked.
-    unsafe {
-        with_fit(m, intercept, |f| match f.predict(row) {
-            Ok(v) => {
-                write_out(out, v);
-                PF_OK
-            }
-            Err(e) => model_err(e),
-        })
-    }
+    unsafe { row_scalar(m, intercept, row, row_len, out, ModelFit::predict) }
 }
 
 /// Confidence interval at `level` for the mean response at a new row,
@@ -937,22 +955,6 @@ pub unsafe extern "C" fn pf_model_leverage(
     row_len: usize,
     out: *mut f64,
 ) -> pf_status {
-    if out.is_null() || m.is_null() {
-        return PF_ERR_NULL_POINTER;
-    }
     // SAFETY: forwarded contract.
-    let row = match unsafe { slice_in(row, row_len) } {
-        Ok(r) => r,
-        Err(e) => return e,
-    };
-    // SAFETY: forwarded contract; `out` checked.
-    unsafe {
-        with_fit(m, intercept, |f| match f.leverage(row) {
-            Ok(v) => {
-                write_out(out, v);
-                PF_OK
-            }
-            Err(e) => model_err(e),
-        })
-    }
+    unsafe { row_scalar(m, intercept, row, row_len, out, ModelFit::leverage) }
 }
