@@ -99,7 +99,9 @@ def test_extend_releases_the_gil() -> None:
     # A Python thread can only run while the GIL is free. Ticks it records
     # in the middle of a long extend() prove the call released the GIL (a
     # held GIL allows switches only at the call's edges).
-    n = 8_000_000
+    # Big enough that even an idle machine spends well over 30 ms (the full
+    # tier runs at ~250 M pairs/s, so 8e6 pairs took only 29 ms there).
+    n = 24_000_000
     assert n >= plumbfit.GIL_RELEASE_PAIRS
     x = np.linspace(0.0, 1.0, n)
     y = 0.5 * x
