@@ -184,10 +184,22 @@ pub fn residuals_into(
     fit: &LineFit,
     out: &mut [f64],
 ) -> Result<(), DiagError> {
+    fill_per_pair(xs, ys, fit, out, |_, _, e| e)
+}
+
+/// Refits, checks `out`, and writes `make(x, y, e)` for every pair; `out`
+/// is untouched on error.
+fn fill_per_pair<O>(
+    xs: &[f64],
+    ys: &[f64],
+    fit: &LineFit,
+    out: &mut [O],
+    make: impl Fn(f64, f64, f64) -> O,
+) -> Result<(), DiagError> {
     let r = Refit::new(xs, ys, fit, 2)?;
     check_out(xs.len(), out.len())?;
     for ((o, &x), &y) in out.iter_mut().zip(xs).zip(ys) {
-        *o = r.resid(x, y);
+        *o = make(x, y, r.resid(x, y));
     }
     Ok(())
 }
@@ -202,12 +214,7 @@ pub fn versus_x_into(
     fit: &LineFit,
     out: &mut [[f64; 2]],
 ) -> Result<(), DiagError> {
-    let r = Refit::new(xs, ys, fit, 2)?;
-    check_out(xs.len(), out.len())?;
-    for ((o, &x), &y) in out.iter_mut().zip(xs).zip(ys) {
-        *o = [x, r.resid(x, y)];
-    }
-    Ok(())
+    fill_per_pair(xs, ys, fit, out, |x, _, e| [x, e])
 }
 
 /// Writes the pairs `(ŷᵢ, eᵢ)` for a residual-against-fitted plot
@@ -221,13 +228,7 @@ pub fn versus_fitted_into(
     fit: &LineFit,
     out: &mut [[f64; 2]],
 ) -> Result<(), DiagError> {
-    let r = Refit::new(xs, ys, fit, 2)?;
-    check_out(xs.len(), out.len())?;
-    for ((o, &x), &y) in out.iter_mut().zip(xs).zip(ys) {
-        let e = r.resid(x, y);
-        *o = [y - e, e];
-    }
-    Ok(())
+    fill_per_pair(xs, ys, fit, out, |_, y, e| [y - e, e])
 }
 
 /// Writes normal quantile pairs `(theoretical quantile, ordered residual)`,
@@ -242,13 +243,9 @@ pub fn normal_pairs_into(
     fit: &LineFit,
     out: &mut [[f64; 2]],
 ) -> Result<(), DiagError> {
-    let r = Refit::new(xs, ys, fit, 2)?;
+    fill_per_pair(xs, ys, fit, out, |_, _, e| [0.0, e])?;
     let n = xs.len();
-    check_out(n, out.len())?;
     let out = &mut out[..n];
-    for ((o, &x), &y) in out.iter_mut().zip(xs).zip(ys) {
-        *o = [0.0, r.resid(x, y)];
-    }
     out.sort_unstable_by(|a, b| a[1].total_cmp(&b[1]));
     let an = n as f64 + 0.25;
     for (i, o) in out.iter_mut().enumerate() {
