@@ -428,12 +428,13 @@ impl LineFit {
     /// Standard error of the fitted mean response at `x`.
     ///
     /// # Errors
-    /// [`LineError::NonFinite`] for a non-finite `x`.
+    /// [`LineError::NonFinite`] for a non-finite `x`, or an `x` so far out
+    /// that the standard error overflows.
     pub fn se_mean(&self, x: f64) -> Result<f64, LineError> {
         if !x.is_finite() {
             return Err(LineError::NonFinite);
         }
-        Ok(libm::sqrt(self.var_fitted(x)))
+        finite(libm::sqrt(self.var_fitted(x)))
     }
 
     fn var_fitted(&self, x: f64) -> f64 {
@@ -449,7 +450,8 @@ impl LineFit {
     /// of unit weight) at `x`: `√(scale·(1/m) + var(ŷ(x)))`.
     ///
     /// # Errors
-    /// [`LineError::InvalidCount`] for `m = 0`, [`LineError::NonFinite`].
+    /// [`LineError::InvalidCount`] for `m = 0`, [`LineError::NonFinite`]
+    /// (as [`LineFit::se_mean`]).
     pub fn se_prediction(&self, x: f64, m: u32) -> Result<f64, LineError> {
         if m == 0 {
             return Err(LineError::InvalidCount);
@@ -457,7 +459,16 @@ impl LineFit {
         if !x.is_finite() {
             return Err(LineError::NonFinite);
         }
-        Ok(libm::sqrt(self.scale / m as f64 + self.var_fitted(x)))
+        finite(libm::sqrt(self.scale / m as f64 + self.var_fitted(x)))
+    }
+}
+
+/// A result that overflowed is an error, never an infinite or NaN value.
+fn finite(v: f64) -> Result<f64, LineError> {
+    if v.is_finite() {
+        Ok(v)
+    } else {
+        Err(LineError::NonFinite)
     }
 }
 
@@ -525,7 +536,16 @@ impl LineFit {
     /// [`LineError::InvalidLevel`], [`LineError::NonFinite`].
     pub fn mean_band(&self, x: f64, level: f64) -> Result<Interval, LineError> {
         let se = self.se_mean(x)?;
-        self.interval(self.fitted(x), se, level)
+        self.band(self.fitted(x), se, level)
+    }
+
+    /// An interval around a fitted value; ends that overflow are an error.
+    fn band(&self, center: f64, se: f64, level: f64) -> Result<Interval, LineError> {
+        let iv = self.interval(center, se, level)?;
+        finite(iv.center)?;
+        finite(iv.lower)?;
+        finite(iv.upper)?;
+        Ok(iv)
     }
 
     /// Prediction interval for the mean of `m` new observations at `x`.
@@ -535,7 +555,7 @@ impl LineFit {
     /// [`LineError::NonFinite`].
     pub fn prediction(&self, x: f64, m: u32, level: f64) -> Result<Interval, LineError> {
         let se = self.se_prediction(x, m)?;
-        self.interval(self.fitted(x), se, level)
+        self.band(self.fitted(x), se, level)
     }
 
     /// The analysis-of-variance table.

@@ -53,9 +53,20 @@ fn check_sample(sample: &[f64], min: usize) -> Result<(), DiagError> {
     Ok(())
 }
 
+/// Sorted copy of the sample. Both statistics are location and scale
+/// invariant, so a sample whose largest magnitude lies outside
+/// [2⁻⁵⁰⁰, 2⁵⁰⁰] is rescaled by a power of two (exact) to keep its range
+/// and squared deviations finite and normal; other samples are untouched.
 fn sorted(sample: &[f64]) -> Vec<f64> {
     let mut s = sample.to_vec();
     s.sort_by(|a, b| a.total_cmp(b));
+    let big = s.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+    let (_, e) = libm::frexp(big);
+    if big > 0.0 && !(-500..=500).contains(&e) {
+        for v in &mut s {
+            *v = libm::scalbn(*v, -e);
+        }
+    }
     s
 }
 
