@@ -1,7 +1,10 @@
 //! Turning Python arguments into `&[f64]` for the core.
 //!
 //! * A 1-D, C-contiguous, native-byte-order `float64` ndarray is borrowed:
-//!   the core reads NumPy's buffer directly, nothing is copied.
+//!   the core reads NumPy's buffer directly, nothing is copied. Up to
+//!   `SMALL_COPY` (256) values are instead copied into a private buffer, which
+//!   costs less than registering and releasing the borrow (rust-numpy's
+//!   cross-extension borrow tracking); this is not a conversion.
 //! * Anything else that NumPy can turn into a 1-D real array (lists,
 //!   tuples, integer/bool/float32 arrays, strided views, big-endian or
 //!   misaligned data) is converted once into a new contiguous `float64`
@@ -10,7 +13,8 @@
 //!   naming the dtype; arrays that are not 1-D raise `ValueError` with the
 //!   shape.
 //!
-//! Every conversion increments a counter that the tests read through
+//! Every conversion (to float64, or to a contiguous aligned layout)
+//! increments a counter that the tests read through
 //! `_native._conversion_count()`, so they can prove the borrowed path was
 //! taken.
 
@@ -23,6 +27,14 @@ use pyo3::prelude::*;
 use pyo3::sync::PyOnceLock;
 use pyo3::types::PyDict;
 use std::sync::atomic::{AtomicU64, Ordering};
+
+/// Contiguous float64 inputs up to this many values are copied rather
+/// than borrowed. Registering a borrow with rust-numpy and releasing it
+/// locks and updates a shared hash map twice, about as long as copying a
+/// few kilobytes; at 256 values (2 KiB) the copy is the cheaper of the two, and
+/// a one-pair `extend` spends about a third less time than when borrowing
+/// (benches/python/bench_line.py, `extend, one pair`).
+pub(crate) const SMALL_COPY: usize = 256;
 
 static CONVERSIONS: AtomicU64 = AtomicU64::new(0);
 
@@ -42,7 +54,8 @@ fn numpy_attr<'py>(py: Python<'py>, name: &'static str) -> PyResult<Bound<'py, P
 pub enum Vector<'py> {
     /// NumPy's own buffer (contiguous float64 input, or our converted copy).
     Array(PyReadonlyArray1<'py, f64>),
-    /// A strided float64 view gathered into a vector.
+    /// A short input copied, or a strided float64 view gathered, into a
+    /// vector.
     Gathered(Vec<f64>),
 }
 
@@ -110,6 +123,13 @@ fn convert<'py>(obj: &Bound<'py, PyAny>, name: &str, ndim: usize) -> PyResult<Bo
 pub fn vector<'py>(obj: &Bound<'py, PyAny>, name: &str) -> PyResult<Vector<'py>> {
     if let Ok(a) = obj.cast::<PyArray1<f64>>() {
         if a.is_aligned() {
+            if a.len() <= SMALL_COPY {
+                // `to_vec` fails only for a non-contiguous array, which the
+                // borrowed path below gathers.
+                if let Ok(v) = a.to_vec() {
+                    return Ok(Vector::Gathered(v));
+                }
+            }
             let ro = readonly(a, name)?;
             if a.is_c_contiguous() {
                 return Ok(Vector::Array(ro));
