@@ -338,8 +338,14 @@ pub(crate) fn elementwise<'py, E: Into<Failure> + Copy>(
     Ok(PyArray1::from_vec(py, out).into_any())
 }
 
-fn no_err(v: f64) -> Result<f64, LineError> {
-    Ok(v)
+/// A fitted value, refused (as in the C door) when `x` is not finite or the
+/// value overflows, so no NaN or infinity is handed back.
+fn fitted_value(x: f64, y: f64) -> Result<f64, LineError> {
+    if x.is_finite() && y.is_finite() {
+        Ok(y)
+    } else {
+        Err(LineError::NonFinite)
+    }
 }
 
 /// A confidence or prediction interval: `center ± t·se`.
@@ -579,9 +585,10 @@ line_fit_methods! {
         self.inner.p_chi_square()
     }
 
-    /// Fitted value at `x` (a float, or an array-like giving an array).
+    /// Fitted value at `x` (a float, or an array-like giving an array);
+    /// `NonFiniteError` for a non-finite `x` or a value that overflows.
     fn fitted<'py>(&self, x: &Bound<'py, PyAny>) -> PyResult<Bound<'py, PyAny>> {
-        elementwise(x, |v| no_err(self.inner.fitted(v)))
+        elementwise(x, |v| fitted_value(v, self.inner.fitted(v)))
     }
 
     /// Standard error of the fitted mean response at `x` (float or array).
