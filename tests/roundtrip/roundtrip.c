@@ -1,0 +1,163 @@
+/*
+ * C step of the cross-door round trip (see tests/roundtrip/src/main.rs for
+ * the whole sequence): restores the states Rust saved after part A into
+ * caller storage, checks that saving them again gives the same bytes, adds
+ * part B (weighted pushes of its first half, its second half merged in from
+ * a fresh accumulator), applies forgetting and saves c_<kind>.state.
+ *
+ * Usage: roundtrip <dir>   (the folder plumbfit-roundtrip wrote)
+ */
+#include "plumbfit.h"
+
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#define LAMBDA 0.995
+#define MAXN 4096
+
+static int failures = 0;
+static const char *dir;
+
+#define CHECK_OK(call)                                                       \
+    do {                                                                     \
+        pf_status s_ = (call);                                               \
+        if (s_ != PF_OK) {                                                   \
+            fprintf(stderr, "%s:%d: %s returned %u (%s)\n", __FILE__,        \
+                    __LINE__, #call, (unsigned)s_, pf_status_str(s_));       \
+            failures++;                                                      \
+            return;                                                          \
+        }                                                                    \
+    } while (0)
+
+static size_t read_file(const char *name, void *buf, size_t cap) {
+    char path[1024];
+    FILE *f;
+    size_t n;
+    snprintf(path, sizeof path, "%s/%s", dir, name);
+    f = fopen(path, "rb");
+    if (!f) {
+        fprintf(stderr, "cannot open %s\n", path);
+        exit(1);
+    }
+    n = fread(buf, 1, cap, f);
+    if (!feof(f) && fgetc(f) != EOF) {
+        fprintf(stderr, "%s is larger than %zu bytes\n", path, cap);
+        exit(1);
+    }
+    fclose(f);
+    return n;
+}
+
+static void write_file(const char *name, const void *buf, size_t len) {
+    char path[1024];
+    FILE *f;
+    snprintf(path, sizeof path, "%s/%s", dir, name);
+    f = fopen(path, "wb");
+    if (!f || fwrite(buf, 1, len, f) != len || fclose(f) != 0) {
+        fprintf(stderr, "cannot write %s\n", path);
+        exit(1);
+    }
+}
+
+/* Part B: x, y, w (little-endian doubles, as this machine stores them). */
+static double bx[MAXN], by[MAXN], bw[MAXN];
+static size_t bn;
+
+static void load_part_b(void) {
+    size_t nx = read_file("part_b_x.f64", bx, sizeof bx);
+    size_t ny = read_file("part_b_y.f64", by, sizeof by);
+    size_t nw = read_file("part_b_w.f64", bw, sizeof bw);
+    if (nx != ny || nx != nw || nx % 8 != 0 || nx == 0) {
+        fprintf(stderr, "part B files disagree in length\n");
+        exit(1);
+    }
+    bn = nx / 8;
+}
+
+static void line_step(const char *kind, uint32_t tier, void *storage, size_t storage_len) {
+    static uint8_t a[PF_STATE_MAX_LEN], again[PF_STATE_MAX_LEN], out[PF_STATE_MAX_LEN];
+    char name[64];
+    size_t alen, wlen = 0, h = bn / 2, i, want_len = 0;
+    pf_line *acc = NULL, *other = NULL;
+    pf_state_info info;
+    snprintf(name, sizeof name, "a_%s.state", kind);
+    alen = read_file(name, a, sizeof a);
+    CHECK_OK(pf_state_peek(a, alen, &info));
+    if (info.kind != (tier == PF_TIER_LEAN ? PF_STATE_KIND_LINE_LEAN : PF_STATE_KIND_LINE_FULL)) {
+        fprintf(stderr, "%s: peek reports kind %u\n", name, (unsigned)info.kind);
+        failures++;
+    }
+    CHECK_OK(pf_line_init_in(storage, storage_len, tier, &acc));
+    CHECK_OK(pf_line_restore(acc, a, alen));
+    CHECK_OK(pf_line_state_len(acc, &want_len));
+    CHECK_OK(pf_line_save(acc, again, sizeof again, &wlen));
+    if (wlen != alen || wlen != want_len || memcmp(a, again, alen) != 0) {
+        fprintf(stderr, "%s: the C save of the restored state differs from the Rust bytes\n", kind);
+        failures++;
+    }
+    for (i = 0; i < h; i++) CHECK_OK(pf_line_push_weighted(acc, bx[i], by[i], bw[i]));
+    CHECK_OK(pf_line_new(tier, &other));
+    CHECK_OK(pf_line_extend(other, bx + h, by + h, bn - h));
+    CHECK_OK(pf_line_merge(acc, other));
+    CHECK_OK(pf_line_free(other));
+    CHECK_OK(pf_line_forget(acc, LAMBDA));
+    CHECK_OK(pf_line_save(acc, out, sizeof out, &wlen));
+    snprintf(name, sizeof name, "c_%s.state", kind);
+    write_file(name, out, wlen);
+    printf("C step %s: restored %zu bytes (same bytes saved back), added %zu pairs\n", kind, alen, bn);
+}
+
+static void model_step(void) {
+    static uint8_t a[PF_STATE_MAX_LEN], again[PF_STATE_MAX_LEN], out[PF_STATE_MAX_LEN];
+    static uint64_t storage[1024];
+    static double rows[3 * MAXN];
+    size_t alen, wlen = 0, h = bn / 2, i, p = 0;
+    pf_model *m = NULL, *other = NULL;
+    pf_layout lay;
+    alen = read_file("a_model.state", a, sizeof a);
+    CHECK_OK(pf_model_layout(3, &lay));
+    if (lay.size > sizeof storage) {
+        fprintf(stderr, "model storage too small: %zu bytes needed\n", lay.size);
+        failures++;
+        return;
+    }
+    CHECK_OK(pf_model_init_in(storage, sizeof storage, 3, &m));
+    CHECK_OK(pf_model_restore(m, a, alen));
+    CHECK_OK(pf_model_params(m, &p));
+    CHECK_OK(pf_model_save(m, again, sizeof again, &wlen));
+    if (p != 3 || wlen != alen || memcmp(a, again, alen) != 0) {
+        fprintf(stderr, "model: the C save of the restored state differs from the Rust bytes\n");
+        failures++;
+    }
+    for (i = 0; i < h; i++) CHECK_OK(pf_model_push_powers(m, bx[i], by[i], bw[i]));
+    for (i = h; i < bn; i++) {
+        rows[3 * (i - h)] = 1.0;
+        rows[3 * (i - h) + 1] = bx[i];
+        rows[3 * (i - h) + 2] = bx[i] * bx[i];
+    }
+    CHECK_OK(pf_model_new(3, &other));
+    CHECK_OK(pf_model_extend(other, rows, 3 * (bn - h), by + h, bn - h));
+    CHECK_OK(pf_model_merge(m, other));
+    CHECK_OK(pf_model_free(other));
+    CHECK_OK(pf_model_forget(m, LAMBDA));
+    CHECK_OK(pf_model_save(m, out, sizeof out, &wlen));
+    write_file("c_model.state", out, wlen);
+    printf("C step model: restored %zu bytes (same bytes saved back), added %zu rows\n", alen, bn);
+}
+
+int main(int argc, char **argv) {
+    static pf_line_lean_storage lean;
+    static pf_line_full_storage full;
+    if (argc != 2) {
+        fprintf(stderr, "usage: %s <dir>\n", argv[0]);
+        return 2;
+    }
+    dir = argv[1];
+    load_part_b();
+    line_step("lean", PF_TIER_LEAN, &lean, sizeof lean);
+    line_step("full", PF_TIER_FULL, &full, sizeof full);
+    model_step();
+    return failures == 0 ? 0 : 1;
+}
