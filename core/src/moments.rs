@@ -10,6 +10,13 @@
 //!
 //! Neither tier allocates; both are plain `Copy` values.
 //!
+//! # Pending block (lean tier)
+//! A lean `push` does not update the centred moments itself: it adds the
+//! pair's offsets from the current means to a few plain sums, and every
+//! [`PENDING_BLOCK`] pushes, or before anything else reads or changes the
+//! moments, those sums are merged in like an `extend` chunk. Queries merge on a copy, so when they run does not change any
+//! later result. The block is part of the state and of its saved bytes.
+//!
 //! # Frame
 //! Moments are kept about a frame `(x0, y0, b0)`: `dx = x − x0` and
 //! `v = (y − y0) − b0·dx`. The frame is fitted to the first [`STAGE`] pairs
@@ -32,6 +39,91 @@ use core::fmt::Debug;
 
 /// Number of pairs held raw before the frame is fitted.
 pub const STAGE: usize = 8;
+
+/// Most unit-weight pushes a lean state gathers in its pending block before
+/// folding them into the centred moments (one fold per block keeps its cost
+/// out of the push).
+pub const PENDING_BLOCK: usize = 256;
+
+/// Sets of block sums, by pair position modulo this (see [`Pending`]);
+/// one set measured 1.5 times slower per push.
+const PEND_LANES: usize = 4;
+
+/// Bound on `|d|` and `|e|` of a pair entering the pending block and on
+/// the state's means (2^300).
+const PEND_LIMIT: f64 = 2.037035976334486e90;
+/// `PEND_LIMIT²` (2^600).
+const PEND_LIMIT_SQ: f64 = 4.149515568880993e180;
+/// Bound on `|b0|` for opening a block (2^190).
+const PEND_SLOPE: f64 = 1.5692754338466702e57;
+/// Bound on the state's sums and weights for opening a block (2^1000).
+const PEND_BIG: f64 = 1.0715086071862673e301;
+
+/// Unit-weight pushes not yet folded into the centred moments (lean tier,
+/// framed state only): sums of `d = dx − mx` and `e = v − mv`, the pair's
+/// offsets in the frame from the state's means. The means do not change
+/// while a block is open (everything that changes the moments folds the
+/// block first), so the block needs no shift of its own. About the means,
+/// a sum's rounding is relative to what the block adds to the state's
+/// moments (`Σd² = S_block + n·d̄²`, and the merge adds exactly those two
+/// parts), as in a one-pair centred update. Empty (all zero) when
+/// `len == 0`.
+///
+/// The block opens only on a state whose sums and means are within
+/// `PEND_BIG` and `PEND_LIMIT` (and `|b0| <= PEND_SLOPE`), and takes only
+/// pairs with `d² + e² <= PEND_LIMIT²`. Then `Σd² <= 2^608` for at most
+/// [`PENDING_BLOCK`] pairs and the fold's terms stay below 2^1001, so the
+/// fold cannot overflow: every push into the block is final when it
+/// returns.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub(crate) struct Pending {
+    /// Pairs in the block, `0..=PENDING_BLOCK`.
+    pub(crate) len: u32,
+    /// `s[i] = [Σd, Σe, Σd², Σd·e, Σe²]` over the block's pairs at
+    /// positions `≡ i (mod PEND_LANES)`. Separate sets keep the adds
+    /// through memory from forming one dependency chain across pushes.
+    pub(crate) s: [[f64; 5]; PEND_LANES],
+}
+
+impl Pending {
+    pub(crate) const EMPTY: Pending = Pending {
+        len: 0,
+        s: [[0.0; 5]; PEND_LANES],
+    };
+
+    /// The block's sums, the position sets added in order.
+    pub(crate) fn sums(&self) -> [f64; 5] {
+        let mut t = [0.0; 5];
+        for l in &self.s {
+            for (t, v) in t.iter_mut().zip(l) {
+                *t += v;
+            }
+        }
+        t
+    }
+
+    /// Whether the block's length and sums are ones its pushes can reach:
+    /// each position set holds `m` pairs with `d² + e² <= PEND_LIMIT²`, so
+    /// its sums are within `2m` times the one-pair bounds (then the fold
+    /// cannot overflow). The state bounds are checked by the caller.
+    pub(crate) fn sums_in_bounds(&self) -> bool {
+        let k = self.len as usize;
+        k <= PENDING_BLOCK
+            && self.s.iter().enumerate().all(|(i, set)| {
+                // Positions i, i + PEND_LANES, ... below k.
+                let m = ((k + PEND_LANES - 1 - i) / PEND_LANES) as f64;
+                let [sd, se, sdd, sde, see] = *set;
+                // Twice the bound: room for the rounding of the sums.
+                let (l1, l2) = (2.0 * m * PEND_LIMIT, 2.0 * m * PEND_LIMIT_SQ);
+                sd.abs() <= l1
+                    && se.abs() <= l1
+                    && sdd >= 0.0
+                    && see >= 0.0
+                    && sdd + see <= l2
+                    && sde.abs() <= l2
+            })
+    }
+}
 
 /// Errors from updating a pair-moment accumulator. The accumulator is left
 /// exactly as it was before the failing call.
@@ -220,6 +312,9 @@ pub struct PairMoments<T: Tier> {
     pub(crate) svv: f64,
     pub(crate) stage: [[f64; 3]; STAGE],
     pub(crate) stage_len: u8,
+    /// Pushes not yet folded (lean tier only; always empty in the full
+    /// tier). Every query folds them on a copy.
+    pub(crate) pend: Pending,
     pub(crate) hi: <T as sealed::Sealed>::Extra,
 }
 
@@ -354,6 +449,7 @@ impl<T: Tier> PairMoments<T> {
             svv: 0.0,
             stage: [[0.0; 3]; STAGE],
             stage_len: 0,
+            pend: Pending::EMPTY,
             hi: <<T as sealed::Sealed>::Extra as ConstDefault>::DEFAULT,
         }
     }
@@ -366,66 +462,138 @@ impl<T: Tier> PairMoments<T> {
     /// is unchanged on error.
     #[inline]
     pub fn push(&mut self, x: f64, y: f64) -> Result<(), MomentsError> {
-        if !T::IS_FULL && self.framed && !self.slope_free && self.push_lean_in_place(x, y) {
-            return Ok(());
+        if T::IS_FULL {
+            check_pair(x, y, 0)?;
+            return self.push_checked(x, y, 1.0);
         }
-        check_pair(x, y, 0)?;
-        self.push_checked(x, y, 1.0)
+        let k = self.pend.len;
+        // An open block with room: the state was checked when the block
+        // opened and does not change while it is open, so only the pair is
+        // checked here. The sums are independent adds, not a chain through
+        // the means.
+        if k.wrapping_sub(1) < PENDING_BLOCK as u32 - 1 {
+            let (d, e) = self.pending_offsets(x, y);
+            let (dd, de, ee) = (d * d, d * e, e * e);
+            // `d² + e² <= 2^600` implies `|d|, |e| <= 2^300`; NaN,
+            // infinities and squares that overflow all fail it.
+            if dd + ee <= PEND_LIMIT_SQ {
+                let s = &mut self.pend.s[k as usize % PEND_LANES];
+                s[0] += d;
+                s[1] += e;
+                s[2] += dd;
+                s[3] += de;
+                s[4] += ee;
+                self.pend.len = k + 1;
+                return Ok(());
+            }
+        }
+        self.push_other(x, y)
     }
 
-    /// West's unit-weight update of a framed lean state, in place, when
-    /// the pair and the state are within bounds that rule out overflow:
-    /// `|x − x0|, |y − y0| <= 2^300`, `|b0| <= 2^190` give `|v| < 2^491`,
-    /// so no term exceeds 2^983, and sums up to 2^1000 stay finite. Then
-    /// the copy and the finiteness checks of the general path are not
-    /// needed. Returns `false` (nothing changed) otherwise, NaN included.
+    /// The lean `push` outside an open block with room: opens a block
+    /// (folding a full one first), or takes the general checked path.
+    #[inline(never)]
+    fn push_other(&mut self, x: f64, y: f64) -> Result<(), MomentsError> {
+        check_pair(x, y, 0)?;
+        if self.pend.len == 0 {
+            if self.try_open(x, y) {
+                return Ok(());
+            }
+            return self.push_checked(x, y, 1.0);
+        }
+        let mut t = *self;
+        t.fold_pending()?;
+        if !t.try_open(x, y) {
+            t.push_checked(x, y, 1.0)?;
+        }
+        *self = t;
+        Ok(())
+    }
+
+    /// `(d, e)` of a pair: its offsets in the frame from the means.
     #[inline(always)]
-    fn push_lean_in_place(&mut self, x: f64, y: f64) -> bool {
-        // 2^300, 2^190, 2^1000.
-        let (lim, slope, big) = (
-            2.037035976334486e90,
-            1.5692754338466702e57,
-            1.0715086071862673e301,
-        );
-        // The slope on its own branch: tested together with the means,
-        // the compiler loads `b0` and `mx` in one 16-byte read that straddles
-        // the previous push's store of `(mx, mv)`, and the CPU cannot
-        // forward that store (measured here: pushes about 1.4 times slower).
-        if !(self.b0.abs() <= slope) {
-            return false;
-        }
+    fn pending_offsets(&self, x: f64, y: f64) -> (f64, f64) {
         let dx = x - self.x0;
-        let dy = y - self.y0;
-        // `&` (not `&&`): one branch for the rest of the test.
-        let ok = (dx.abs() <= lim)
-            & (dy.abs() <= lim)
-            & (self.mx.abs() <= lim)
-            & (self.mv.abs() <= lim)
-            & (self.sxx <= big)
-            & (self.svv <= big)
-            & (self.sxv.abs() <= big)
-            & (self.w <= big)
-            & (self.w2 <= big)
-            & (self.count < u64::MAX);
-        if !ok {
+        let v = (y - self.y0) - self.b0 * dx;
+        (dx - self.mx, v - self.mv)
+    }
+
+    /// Opens a pending block with `(x, y)` as its first pair if the state
+    /// and the pair are within the bounds of [`Pending`]; `false` (nothing
+    /// changed) otherwise.
+    fn try_open(&mut self, x: f64, y: f64) -> bool {
+        if T::IS_FULL || !self.framed || self.slope_free || self.pend.len != 0 {
             return false;
         }
-        let v = dy - self.b0 * dx;
-        let w_new = self.w + 1.0;
-        let r = 1.0 / w_new;
-        let ddx = dx - self.mx;
-        let ddv = v - self.mv;
-        // `W/W'·ddx²` form as in `update` (never negative).
-        let f = self.w * r;
-        self.mx += r * ddx;
-        self.mv += r * ddv;
-        self.sxx += f * ddx * ddx;
-        self.sxv += f * ddx * ddv;
-        self.svv += f * ddv * ddv;
-        self.w = w_new;
-        self.w2 += 1.0;
-        self.count += 1;
+        if !self.state_in_pending_bounds() {
+            return false;
+        }
+        let (d, e) = self.pending_offsets(x, y);
+        let (dd, de, ee) = (d * d, d * e, e * e);
+        if !(dd + ee <= PEND_LIMIT_SQ) {
+            return false;
+        }
+        let mut p = Pending::EMPTY;
+        p.len = 1;
+        p.s[0] = [d, e, dd, de, ee];
+        self.pend = p;
         true
+    }
+
+    /// The state bounds under which a block may be open (see [`Pending`]).
+    pub(crate) fn state_in_pending_bounds(&self) -> bool {
+        self.b0.abs() <= PEND_SLOPE
+            && self.mx.abs() <= PEND_LIMIT
+            && self.mv.abs() <= PEND_LIMIT
+            && self.sxx <= PEND_BIG
+            && self.svv <= PEND_BIG
+            && self.sxv.abs() <= PEND_BIG
+            && self.w <= PEND_BIG
+            && self.w2 <= PEND_BIG
+            && self.count <= 1 << 62
+    }
+
+    /// Folds the pending block into the centred moments: the block's sums
+    /// about the means give its own centred moments and its mean offset,
+    /// merged as any chunk is (Chan–Golub–LeVeque). Atomic; cannot fail
+    /// for a block that kept the bounds of [`Pending`].
+    pub(crate) fn fold_pending(&mut self) -> Result<(), MomentsError> {
+        let k = self.pend.len;
+        if k == 0 {
+            return Ok(());
+        }
+        let [s_x, s_v, s_xx, s_xv, s_vv] = self.pend.sums();
+        let n = k as f64;
+        // The block's mean offsets from the state's means, and its centred
+        // moments (exact values are non-negative; a negative one is
+        // rounding).
+        let (ox, ov) = (s_x / n, s_v / n);
+        let bxx = (s_xx - ox * s_x).max(0.0);
+        let bxv = s_xv - ox * s_v;
+        let bvv = (s_vv - ov * s_v).max(0.0);
+        let w = self.w + n;
+        let (r, f) = (n / w, self.w * n / w);
+        let mx = self.mx + ox * r;
+        let mv = self.mv + ov * r;
+        let sxx = self.sxx + bxx + f * ox * ox;
+        let sxv = self.sxv + bxv + f * ox * ov;
+        let svv = self.svv + bvv + f * ov * ov;
+        let w2 = self.w2 + n;
+        let count = self.count.checked_add(k as u64);
+        let ok = all_finite(&[w, w2, mx, mv, sxx, sxv, svv]);
+        let Some(count) = count.filter(|_| ok) else {
+            return Err(MomentsError::Overflow);
+        };
+        self.w = w;
+        self.w2 = w2;
+        self.mx = mx;
+        self.mv = mv;
+        self.sxx = sxx;
+        self.sxv = sxv;
+        self.svv = svv;
+        self.count = count;
+        self.pend = Pending::EMPTY;
+        Ok(())
     }
 
     /// Adds one pair with weight `w > 0`. Weights are relative or known
@@ -445,6 +613,14 @@ impl<T: Tier> PairMoments<T> {
     }
 
     fn push_checked(&mut self, x: f64, y: f64, w: f64) -> Result<(), MomentsError> {
+        if self.pend.len > 0 {
+            // Earlier pushes come first.
+            let mut t = *self;
+            t.fold_pending()?;
+            t.push_checked(x, y, w)?;
+            *self = t;
+            return Ok(());
+        }
         if !self.framed {
             let k = self.stage_len as usize;
             if k + 1 < STAGE {
@@ -598,10 +774,12 @@ impl<T: Tier> PairMoments<T> {
         Ok(())
     }
 
-    /// A copy with the staged pairs committed (what every query reads).
+    /// A copy with the staged and pending pairs committed (what every
+    /// query reads).
     pub(crate) fn flushed(&self) -> Result<Self, MomentsError> {
         let mut t = *self;
         t.flush()?;
+        t.fold_pending()?;
         Ok(t)
     }
 
@@ -663,6 +841,7 @@ impl<T: Tier> PairMoments<T> {
             return Err(MomentsError::EmptyInput);
         }
         let mut t = *self;
+        t.fold_pending()?;
         let mut i = 0;
         // Until the frame is fixed (and has a slope), go pair by pair.
         while i < xs.len() && (!t.framed || t.slope_free) {
@@ -851,7 +1030,11 @@ impl<T: Tier> PairMoments<T> {
         if other.count == 0 && other.stage_len == 0 {
             return Ok(());
         }
+        let mut o = *other;
+        o.fold_pending()?;
+        let other = &o;
         let mut t = *self;
+        t.fold_pending()?;
         if !other.framed {
             // Few pairs: replaying them is exact and keeps sequential order.
             for p in &other.stage[..other.stage_len as usize] {
@@ -955,6 +1138,7 @@ impl<T: Tier> PairMoments<T> {
             return Ok(());
         }
         let mut t = *self;
+        t.fold_pending()?;
         t.w *= lambda;
         t.w2 *= lambda * lambda;
         t.sxx *= lambda;
@@ -1002,7 +1186,7 @@ impl<T: Tier> PairMoments<T> {
 
     /// Number of pairs added (forgetting does not change it).
     pub fn count(&self) -> u64 {
-        self.count + self.stage_len as u64
+        self.count + self.stage_len as u64 + self.pend.len as u64
     }
 
     /// Whether no pair has been added.
@@ -1251,4 +1435,16 @@ impl ConstDefault for HigherMoments {
         ymin: f64::INFINITY,
         ymax: f64::NEG_INFINITY,
     };
+}
+
+#[cfg(test)]
+mod pending_bounds {
+    #[test]
+    fn bounds_are_the_stated_powers_of_two() {
+        // Exact: powers of two are exact doubles.
+        assert_eq!(super::PEND_LIMIT, 2f64.powi(300));
+        assert_eq!(super::PEND_LIMIT_SQ, 2f64.powi(600));
+        assert_eq!(super::PEND_SLOPE, 2f64.powi(190));
+        assert_eq!(super::PEND_BIG, 2f64.powi(1000));
+    }
 }

@@ -40,7 +40,7 @@
 //! ```
 
 use crate::model::{self, ModelCore, ModelMoments, LAYOUT_TAG, MAX_PARAMS};
-use crate::moments::{HigherMoments, NoExtra, PairMoments, Tier, STAGE};
+use crate::moments::{HigherMoments, NoExtra, PairMoments, Pending, Tier, PENDING_BLOCK, STAGE};
 use crate::{Full, Lean};
 use alloc::vec;
 use alloc::vec::Vec;
@@ -50,8 +50,13 @@ use core::fmt;
 /// set so that a channel that strips the eighth bit is detected.
 pub const MAGIC: [u8; 4] = [0xC5, b'P', b'F', b'S'];
 
-/// The format version this build writes and the only one it reads.
-pub const FORMAT_VERSION: u16 = 1;
+/// The format version this build writes. It also reads version 1, whose
+/// layouts are those of version 2 without the lean pending block (a
+/// version 1 line state is a version 2 state with an empty block).
+pub const FORMAT_VERSION: u16 = 2;
+
+/// The oldest format version this build reads.
+pub const OLDEST_READ_VERSION: u16 = 1;
 
 /// Bytes before the payload: magic, version, kind, reserved, `p`,
 /// options, payload length.
@@ -153,6 +158,9 @@ pub enum StateField {
     /// A staged pair (non-finite value, non-positive weight, or a nonzero
     /// unused slot).
     Stage,
+    /// The lean pending block: its length, first pair or sums (out of
+    /// bounds, in a state that cannot hold one, or a nonzero unused slot).
+    Pending,
     /// The frame `x0`, `y0`, `b0`.
     Frame,
     /// The weight sum Σw.
@@ -202,6 +210,7 @@ impl StateField {
             StateField::Flags => "flags",
             StateField::StageLen => "stage_len",
             StateField::Stage => "stage",
+            StateField::Pending => "pending",
             StateField::Frame => "frame",
             StateField::WeightSum => "weight_sum",
             StateField::WeightSqSum => "weight_sq_sum",
@@ -242,11 +251,11 @@ pub enum StateError {
     #[error("not a state blob (bad magic)")]
     BadMagic,
     /// A format version this build does not read.
-    #[error("unsupported state format version {found} (this build reads {supported})")]
+    #[error("unsupported state format version {found} (this build reads 1 to {supported})")]
     UnsupportedVersion {
         /// Version found in the blob.
         found: u16,
-        /// The version this build reads.
+        /// The newest version this build reads (and the one it writes).
         supported: u16,
     },
     /// A kind byte this version does not know.
@@ -373,7 +382,8 @@ pub fn crc32(bytes: &[u8]) -> u32 {
 pub struct StateInfo {
     /// The accumulator kind.
     pub kind: StateKind,
-    /// The format version (always [`FORMAT_VERSION`] for a blob that peeks).
+    /// The format version of the blob, [`OLDEST_READ_VERSION`] to
+    /// [`FORMAT_VERSION`].
     pub version: u16,
     /// Number of model coefficients `p`; 0 for line states.
     pub params: u16,
@@ -406,6 +416,7 @@ fn f64_at(b: &[u8], at: usize) -> f64 {
 #[derive(Clone, Copy)]
 struct Header {
     kind: StateKind,
+    version: u16,
     p: u16,
     len: usize,
 }
@@ -425,7 +436,7 @@ fn read_header(b: &[u8]) -> Result<Header, StateError> {
         return Err(StateError::BadMagic);
     }
     let version = u16_at(b, 4);
-    if version != FORMAT_VERSION {
+    if !(OLDEST_READ_VERSION..=FORMAT_VERSION).contains(&version) {
         return Err(StateError::UnsupportedVersion {
             found: version,
             supported: FORMAT_VERSION,
@@ -466,6 +477,7 @@ fn read_header(b: &[u8]) -> Result<Header, StateError> {
     }
     Ok(Header {
         kind,
+        version,
         p,
         len: HEADER_LEN + payload + TRAILER_LEN,
     })
@@ -530,14 +542,14 @@ pub fn peek(bytes: &[u8]) -> Result<StateInfo, StateError> {
     let count = match h.kind {
         // The payload is not validated here: saturate rather than trust it
         // (a restore checks both counts).
-        StateKind::LineLean | StateKind::LineFull => {
-            u64_at(payload, 0).saturating_add(payload[9] as u64)
-        }
+        StateKind::LineLean | StateKind::LineFull => u64_at(payload, 0)
+            .saturating_add(payload[9] as u64)
+            .saturating_add(u16_at(payload, 10) as u64),
         StateKind::Model => f64_at(payload, 16) as u64,
     };
     Ok(StateInfo {
         kind: h.kind,
-        version: FORMAT_VERSION,
+        version: h.version,
         params: h.p,
         count,
         len: h.len,
@@ -792,16 +804,31 @@ impl<T: StateTier> PairMoments<T> {
                     flags |= bit;
                 }
             }
-            w.bytes(&[flags, self.stage_len, 0, 0, 0, 0, 0, 0]);
+            let pend = (self.pend.len as u16).to_le_bytes();
+            w.bytes(&[flags, self.stage_len, pend[0], pend[1], 0, 0, 0, 0]);
             for v in [
                 self.w, self.w2, self.x0, self.y0, self.b0, self.mx, self.mv, self.sxx, self.sxv,
                 self.svv,
             ] {
                 w.f64(v);
             }
-            for p in self.stage {
-                for v in p {
+            // One area: the stage before the frame is fitted, the pending
+            // block after (the stage is then empty).
+            if self.framed {
+                let p = &self.pend;
+                let mut n = 0;
+                for v in p.s.into_iter().flatten() {
                     w.f64(v);
+                    n += 1;
+                }
+                for _ in n..STAGE * 3 {
+                    w.f64(0.0);
+                }
+            } else {
+                for p in self.stage {
+                    for v in p {
+                        w.f64(v);
+                    }
                 }
             }
             let at = w.at;
@@ -833,8 +860,9 @@ impl<T: StateTier> PairMoments<T> {
         a.count = r.u64();
         let flags = r.u8();
         let stage_len = r.u8();
+        let pend_len = u16::from_le_bytes([r.u8(), r.u8()]);
         let mut pad = 0u8;
-        for _ in 0..6 {
+        for _ in 0..4 {
             pad |= r.u8();
         }
         check(pad == 0, StateField::Reserved)?;
@@ -855,9 +883,17 @@ impl<T: StateTier> PairMoments<T> {
         a.sxx = r.f64();
         a.sxv = r.f64();
         a.svv = r.f64();
-        for p in a.stage.iter_mut() {
-            for v in p.iter_mut() {
-                *v = r.f64();
+        let mut area = [0.0f64; STAGE * 3];
+        for v in area.iter_mut() {
+            *v = r.f64();
+        }
+        if a.framed {
+            check(pend_len as usize <= PENDING_BLOCK, StateField::Pending)?;
+            a.pend = pending_from(pend_len, &area)?;
+        } else {
+            check(pend_len == 0, StateField::Pending)?;
+            for (slot, v) in a.stage.iter_mut().zip(area.chunks_exact(3)) {
+                slot.copy_from_slice(v);
             }
         }
         check_base(&a)?;
@@ -919,7 +955,34 @@ fn check_base<T: Tier>(a: &PairMoments<T>) -> Result<(), StateError> {
             StateField::Flags,
         )?;
     }
+    if a.pend.len > 0 {
+        // Only a lean state within the bounds a block opens under, and sums
+        // a block's pushes can reach: then every later push and the fold
+        // keep their guarantees.
+        check(
+            !T::IS_FULL && !a.slope_free && a.state_in_pending_bounds() && a.pend.sums_in_bounds(),
+            StateField::Pending,
+        )?;
+    }
     Ok(())
+}
+
+/// The pending block from the shared stage/block area of a framed state:
+/// the sums by position set, then zeros.
+fn pending_from(len: u16, area: &[f64; STAGE * 3]) -> Result<Pending, StateError> {
+    let mut p = Pending::EMPTY;
+    p.len = len as u32;
+    let mut at = 0;
+    for set in p.s.iter_mut() {
+        let n = set.len();
+        set.copy_from_slice(&area[at..at + n]);
+        at += n;
+    }
+    // Unused slots zero, and an empty block all zero (as a version 1 state).
+    let unused_zero = area[at..].iter().all(|&v| v == 0.0);
+    let empty_ok = len > 0 || area.iter().all(|&v| v == 0.0);
+    check(unused_zero && empty_ok, StateField::Pending)?;
+    Ok(p)
 }
 
 // ---------------------------------------------------------------------------

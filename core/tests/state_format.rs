@@ -11,7 +11,7 @@ use plumbfit::{FullMoments, LeanMoments};
 /// staged unit-weight pairs (1, 2) and (3, 5).
 fn hand_built_lean() -> Vec<u8> {
     let mut b = vec![0xC5, 0x50, 0x46, 0x53]; // magic
-    b.extend_from_slice(&1u16.to_le_bytes()); // version
+    b.extend_from_slice(&2u16.to_le_bytes()); // version
     b.push(1); // kind: line-lean
     b.push(0); // reserved
     b.extend_from_slice(&0u16.to_le_bytes()); // p
@@ -25,8 +25,28 @@ fn hand_built_lean() -> Vec<u8> {
     }
     b.extend_from_slice(&[0u8; 192 - 48]); // unused stage slots
                                            // CRC of the 304 bytes above, from Python 3.11 `zlib.crc32`.
-    b.extend_from_slice(&0x65FF_0B9Eu32.to_le_bytes());
+    b.extend_from_slice(&0x05A8_CB41u32.to_le_bytes());
     b
+}
+
+#[test]
+fn version_1_blobs_are_still_read() {
+    // The same state written by a version 1 build: version 1 and its CRC
+    // (from Python 3.11 `zlib.crc32`); version 2 only added the pending
+    // block, empty here.
+    let mut v1 = hand_built_lean();
+    v1[4] = 1;
+    v1[304..].copy_from_slice(&0x65FF_0B9Eu32.to_le_bytes());
+    assert_eq!(state::peek(&v1).unwrap().version, 1);
+    let a = LeanMoments::restore(&v1).unwrap();
+    assert_eq!(a.save_to_vec(), hand_built_lean());
+    // A framed version 1 state: re-sealed under version 1, it restores to
+    // the same state (its stage area is all zero, an empty block).
+    let (_, b) = sample_blobs().remove(0);
+    let mut old = b.clone();
+    old[4] = 1;
+    let old = resealed(old);
+    assert_eq!(LeanMoments::restore(&old).unwrap().save_to_vec(), b);
 }
 
 #[test]
@@ -50,7 +70,7 @@ fn full_bytes_match_the_specification() {
     assert_eq!(b.len(), state::FULL_LEN);
     assert_eq!(
         &b[..16],
-        &[0xC5, 0x50, 0x46, 0x53, 1, 0, 2, 0, 0, 0, 0, 0, 0xC0, 1, 0, 0]
+        &[0xC5, 0x50, 0x46, 0x53, 2, 0, 2, 0, 0, 0, 0, 0, 0xC0, 1, 0, 0]
     );
     assert_eq!(b[16 + 9], 1, "stage_len");
     assert_eq!(&b[16 + 96..16 + 104], &(-0.5f64).to_le_bytes());
@@ -68,7 +88,7 @@ fn full_bytes_match_the_specification() {
         ]
     );
     // CRC from Python 3.11 `zlib.crc32` over the same hand-built bytes.
-    assert_eq!(&b[464..], &0xEB46_D988u32.to_le_bytes());
+    assert_eq!(&b[464..], &0x57B0_BDECu32.to_le_bytes());
 }
 
 fn sample_blobs() -> Vec<(StateKind, Vec<u8>)> {
@@ -107,7 +127,7 @@ fn every_kind_round_trips_bit_for_bit() {
     for (kind, b) in sample_blobs() {
         assert_eq!(restore_any(kind, &b).unwrap(), b, "{kind}");
         let info = state::peek(&b).unwrap();
-        assert_eq!((info.kind, info.version, info.len), (kind, 1, b.len()));
+        assert_eq!((info.kind, info.version, info.len), (kind, 2, b.len()));
         assert_eq!(state::declared_len(&b[..16]), Ok(b.len()));
     }
     let (_, mb) = &sample_blobs()[2];
@@ -189,10 +209,10 @@ fn header_rules() {
         Err(StateError::BadMagic)
     );
     assert_eq!(
-        LeanMoments::restore(&edit(4, &2u16.to_le_bytes())),
+        LeanMoments::restore(&edit(4, &3u16.to_le_bytes())),
         Err(StateError::UnsupportedVersion {
-            found: 2,
-            supported: 1
+            found: 3,
+            supported: 2
         })
     );
     assert_eq!(
@@ -282,7 +302,8 @@ fn payload_rules_name_the_field() {
     assert_eq!(field_of(put(&lean, 72, -1e-300)), StateField::Sxx);
     assert_eq!(field_of(put(&lean, 80, f64::NAN)), StateField::Sxv);
     assert_eq!(field_of(put(&lean, 88, -2.0)), StateField::Svv);
-    assert_eq!(field_of(put(&lean, 96, 1.0)), StateField::Stage);
+    // Framed: the stage area holds the (here empty) pending block.
+    assert_eq!(field_of(put(&lean, 96, 1.0)), StateField::Pending);
     let mut c = lean.clone();
     c[16 + 8] |= 0x40;
     assert_eq!(field_of(resealed(c)), StateField::Flags);
@@ -322,14 +343,108 @@ fn payload_rules_name_the_field() {
     assert_eq!(mfield(8 + 3, 1.0), StateField::ModelDiagonal); // low part not normalised
 }
 
+/// A lean state with an open pending block: 8 staged pairs fit the frame,
+/// the 9th opens the block, 11 more join it.
+fn lean_with_block() -> (LeanMoments, Vec<u8>) {
+    let mut a = LeanMoments::new();
+    for i in 0..20 {
+        let x = i as f64 * 0.5;
+        a.push(x, 3.0 - 2.0 * x + (i % 3) as f64 * 0.125).unwrap();
+    }
+    let b = a.save_to_vec();
+    (a, b)
+}
+
+#[test]
+fn pending_block_bytes_and_rules() {
+    let (a, b) = lean_with_block();
+    assert_eq!(a.count(), 20);
+    // Payload offset 10: pending pairs (u16); 96: four sets of five sums
+    // (each set holds 3 of the 12 pairs, so none is all zero); 256: zero.
+    assert_eq!(u16::from_le_bytes([b[16 + 10], b[16 + 11]]), 12);
+    for set in 0..4 {
+        let at = 16 + 96 + 40 * set;
+        let sq = |k: usize| f64::from_le_bytes(b[at + 8 * k..at + 8 * k + 8].try_into().unwrap());
+        assert!(sq(2) > 0.0 && sq(4) >= 0.0, "set {set}: Σd², Σe²");
+    }
+    assert!(b[16 + 256..16 + 288].iter().all(|&v| v == 0));
+    assert_eq!(state::peek(&b).unwrap().count, 20);
+    let back = LeanMoments::restore(&b).unwrap();
+    assert_eq!(back, a);
+
+    let field_of = |c: Vec<u8>| match LeanMoments::restore(&resealed(c)) {
+        Err(StateError::InvalidField { field }) => field,
+        other => panic!("{other:?}"),
+    };
+    let with = |at: usize, v: &[u8]| {
+        let mut c = b.clone();
+        c[16 + at..16 + at + v.len()].copy_from_slice(v);
+        c
+    };
+    // Longer than a block.
+    assert_eq!(
+        field_of(with(10, &257u16.to_le_bytes())),
+        StateField::Pending
+    );
+    // An empty block must be all zero.
+    assert_eq!(field_of(with(10, &0u16.to_le_bytes())), StateField::Pending);
+    // A sum not finite; unused slot (area values 20 to 23) not zero.
+    assert_eq!(
+        field_of(with(96, &f64::NAN.to_le_bytes())),
+        StateField::Pending
+    );
+    assert_eq!(
+        field_of(with(272, &1.0f64.to_le_bytes())),
+        StateField::Pending
+    );
+    // A negative Σd² in the second position set (area value 2 + 5 + 2).
+    assert_eq!(
+        field_of(with(168, &(-1.0f64).to_le_bytes())),
+        StateField::Pending
+    );
+    // Sums a block of 12 pairs cannot reach (Σd² and Σd of the first set).
+    assert_eq!(
+        field_of(with(112, &1e300f64.to_le_bytes())),
+        StateField::Pending
+    );
+    assert_eq!(
+        field_of(with(96, &1e200f64.to_le_bytes())),
+        StateField::Pending
+    );
+    // A state beyond the bounds a block opens under (Sxx of 2^1010).
+    assert_eq!(
+        field_of(with(72, &1.1e304f64.to_le_bytes())),
+        StateField::Pending
+    );
+    // Pending pairs in a state whose frame is not fitted yet.
+    let mut staged = hand_built_lean();
+    staged[16 + 10] = 1;
+    assert_eq!(field_of(staged), StateField::Pending);
+    // The full tier never holds a block.
+    let mut f = FullMoments::new();
+    for i in 0..20 {
+        f.push(i as f64, 1.0 + i as f64).unwrap();
+    }
+    let mut c = f.save_to_vec();
+    c[16 + 10] = 1;
+    c[16 + 96..16 + 104].copy_from_slice(&19.0f64.to_le_bytes());
+    c[16 + 104..16 + 112].copy_from_slice(&20.0f64.to_le_bytes());
+    assert_eq!(
+        FullMoments::restore(&resealed(c)),
+        Err(StateError::InvalidField {
+            field: StateField::Pending
+        })
+    );
+}
+
 #[test]
 fn error_codes_are_stable() {
     let cases = [
         (StateError::BadMagic, 50),
         (
             StateError::UnsupportedVersion {
-                found: 2,
-                supported: 1,
+                found: 3,
+                supported: 2,
             },
             51,
         ),

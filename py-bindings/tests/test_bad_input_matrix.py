@@ -480,3 +480,17 @@ def test_empty_level_block_adds_nothing(state: str) -> None:
     before = snapshot(lv)
     lv.extend(np.ones(0), np.ones(0))
     assert snapshot(lv) == before
+
+
+@pytest.mark.parametrize("tier", LINES)
+@pytest.mark.parametrize("state", ("few", "many", "aged"))
+def test_forgetting_into_underflow_is_refused(tier: str, state: str) -> None:
+    # The first forget(1e-300) is valid; the second would underflow every
+    # weight to zero and is refused with code 100, the state unchanged.
+    acc = line_in(tier, state)
+    acc.forget(1e-300)
+    before = acc.to_bytes()
+    with pytest.raises(plumbfit.StateOverflowError) as ei:
+        acc.forget(1e-300)
+    assert ei.value.code == 100
+    assert acc.to_bytes() == before

@@ -330,6 +330,7 @@ OP(v_pushw_inf, pf_levels_push_weighted(f->lv, 1.0, 1.0, INFINITY))
 OP(v_pushw_nan_x, pf_levels_push_weighted(f->lv, NAN, 1.0, 1.0))
 OP(v_ext_nan, pf_levels_extend(f->lv, XS, lv_nan, 3))
 OP(v_ext_inf, pf_levels_extend(f->lv, lv_inf, YS, 3))
+OP(v_ext_empty, pf_levels_extend(f->lv, XS, YS, 0))
 OP(v_push_new_level, pf_levels_push(f->lv, 1000.5, 1.0))
 static double new_levels[40];
 OP(v_ext_over, pf_levels_extend(f->lv, new_levels, new_levels, 40))
@@ -499,6 +500,8 @@ static const struct hcase hcases[] = {
     {"levels push_weighted nan x", K_LEVELS, S_ALL, v_pushw_nan_x, PF_ERR_NON_FINITE},
     {"levels extend nan y at 2", K_LEVELS, S_ALL, v_ext_nan, PF_ERR_NON_FINITE},
     {"levels extend inf x at 1", K_LEVELS, S_ALL, v_ext_inf, PF_ERR_NON_FINITE},
+    /* Documented: an empty block adds nothing (PF_OK), so nothing changes. */
+    {"levels extend n 0", K_LEVELS, S_ALL, v_ext_empty, PF_OK},
     {"levels extend 40 new levels", K_LEVELS, S_ALL, v_ext_over, PF_ERR_LEVEL_CAPACITY},
     {"levels push a 33rd level", K_LEVELS, S_AGED, v_push_new_level, PF_ERR_LEVEL_CAPACITY},
     {"levels merge past capacity", K_LEVELS, S_FEW | S_MANY | S_AGED, v_merge_over, PF_ERR_LEVEL_CAPACITY},
@@ -926,6 +929,38 @@ static void run_stateless_cases(void) {
     }
 }
 
+/* Forgetting that would underflow every weight to zero: the first
+ * forget(1e-300) is valid, the second is refused (PF_ERR_OVERFLOW) and must
+ * leave the state, and the caller storage, as they were. */
+static void run_underflow_checks(void) {
+    static uint8_t before[PF_STATE_MAX_LEN], after[PF_STATE_MAX_LEN];
+    int kind, st, f0;
+    for (kind = K_LEAN; kind <= K_FULL; kind <<= 1) {
+        for (st = S_FEW; st <= S_AGED; st <<= 1) {
+            struct fx f;
+            size_t nb, na;
+            pf_status s;
+            f0 = failures;
+            if (build(kind, st, 0, &f) != PF_OK || pf_line_forget(f.line, 1e-300) != PF_OK) {
+                FAILF("underflow / %s / %s: set-up failed\n", kind_name(kind), state_names[state_index(st)]);
+                cases_failed++;
+                continue;
+            }
+            nb = snapshot(kind, &f, before);
+            memcpy(&storage_before, &storage, sizeof storage);
+            s = pf_line_forget(f.line, 1e-300);
+            cases_run++;
+            if (s != PF_ERR_OVERFLOW)
+                FAILF("underflow / %s / %s: returned %u (%s), expected %u\n", kind_name(kind),
+                      state_names[state_index(st)], (unsigned)s, pf_status_str(s), (unsigned)PF_ERR_OVERFLOW);
+            na = snapshot(kind, &f, after);
+            if (na != nb || memcmp(before, after, nb) != 0 || memcmp(&storage, &storage_before, storage_used) != 0)
+                FAILF("underflow / %s / %s: state changed\n", kind_name(kind), state_names[state_index(st)]);
+            if (failures != f0) cases_failed++;
+        }
+    }
+}
+
 /* Huge and tiny magnitudes that are valid input: both normality
  * statistics are location and scale invariant (by their definitions), and
  * scaling by a power of two is exact, so a sample scaled by 2^1022 (range
@@ -1053,6 +1088,7 @@ int main(void) {
     run_handle_cases();
     run_stateless_cases();
     run_scale_checks();
+    run_underflow_checks();
 
     for (i = 0; i < (int)(sizeof hcases / sizeof hcases[0]); i++) nkinds |= hcases[i].kinds;
     if (nkinds != (K_LEAN | K_FULL | K_MODEL | K_LEVELS)) FAILF("a kind has no case\n");
