@@ -184,37 +184,39 @@ pub(crate) fn shifted_scalar(xs: &[f64], ys: &[f64], xc: f64, yc: f64, b0: f64) 
     }
 }
 
-/// Centred sums of a chunk about the means `(mx, mv)` of `dx`, `v`.
+/// Everything the full tier takes from one unweighted chunk: pass-1 sums
+/// about the shift, centred sums about their means, lag sums, extremes.
 #[derive(Clone, Copy, Debug, PartialEq)]
-pub(crate) struct Centred {
+pub(crate) struct FullSums {
+    pub sx: f64,
+    pub sv: f64,
     pub cu: f64,
     pub ct: f64,
     pub m: [[f64; 5]; 5],
+    pub lag: [f64; 3],
     pub xmin: f64,
     pub xmax: f64,
     pub ymin: f64,
     pub ymax: f64,
 }
 
-/// Unweighted centred sums (orders 2–4, extremes): SIMD when available.
-#[allow(clippy::too_many_arguments)]
+/// Unweighted two-pass full sums: SIMD when available, else the scalar
+/// mirror (same lanes and order, so the same bits).
 #[inline]
-pub(crate) fn centred_sums(
-    xs: &[f64],
-    ys: &[f64],
-    xc: f64,
-    yc: f64,
-    b0: f64,
-    mx: f64,
-    mv: f64,
-) -> Centred {
+pub(crate) fn full_sums(xs: &[f64], ys: &[f64], xc: f64, yc: f64, b0: f64) -> FullSums {
     #[cfg(feature = "simd")]
     {
-        if let Some(s) = plumbfit_kernels::centred_sums(xs, ys, xc, yc, b0, mx, mv) {
-            return Centred {
+        // A whole chunk is usually followed by another one in memory: let
+        // it stream in during this chunk's second pass.
+        let next = xs.len() == LONG_CHUNK;
+        if let Some(s) = plumbfit_kernels::full_sums(xs, ys, xc, yc, b0, next) {
+            return FullSums {
+                sx: s.sx,
+                sv: s.sv,
                 cu: s.cu,
                 ct: s.ct,
                 m: s.m,
+                lag: s.lag,
                 xmin: s.xmin,
                 xmax: s.xmax,
                 ymin: s.ymin,
@@ -222,84 +224,77 @@ pub(crate) fn centred_sums(
             };
         }
     }
-    centred_scalar(xs, ys, xc, yc, b0, mx, mv)
+    full_scalar(xs, ys, xc, yc, b0)
 }
 
-/// The products summed per pair, in one fixed evaluation order shared with
-/// the SIMD kernel: `[u, t, u², ut, t², u³, u²t, ut², t³, u⁴, u³t, u²t², ut³, t⁴]`.
+/// The products summed per pair in pass 2, in one fixed evaluation order
+/// shared with the SIMD kernel: `[u, t, u², ut, t², u²·u, u²·t, u·t², t²·t,
+/// u²·u², u²·ut, u²·t², ut·t², t²·t²]`.
 #[inline(always)]
 fn centred_terms(u: f64, t: f64) -> [f64; 14] {
-    let (u2, t2) = (u * u, t * t);
-    let (u3, ut2) = (u2 * u, u * t2);
+    let (u2, w, t2) = (u * u, u * t, t * t);
     [
         u,
         t,
         u2,
-        u * t,
+        w,
         t2,
-        u3,
+        u2 * u,
         u2 * t,
-        ut2,
+        u * t2,
         t2 * t,
         u2 * u2,
-        u3 * t,
+        u2 * w,
         u2 * t2,
-        ut2 * t,
+        w * t2,
         t2 * t2,
     ]
 }
 
-// Four lanes (pair i in lane i mod 4) and an in-order tail, as in
-// `plumbfit_kernels::centred_sums`.
-#[allow(clippy::too_many_arguments)]
-pub(crate) fn centred_scalar(
-    xs: &[f64],
-    ys: &[f64],
-    xc: f64,
-    yc: f64,
-    b0: f64,
-    mx: f64,
-    mv: f64,
-) -> Centred {
+/// Pass-1 terms of pair `i`: `[dx, v, Δx², Δx·Δv, Δv²]` (lag terms 0 for
+/// the first pair, which has no predecessor).
+#[inline(always)]
+fn first_terms(xs: &[f64], ys: &[f64], i: usize, xc: f64, yc: f64, b0: f64) -> [f64; 5] {
+    let dx = xs[i] - xc;
+    let v = (ys[i] - yc) - b0 * dx;
+    if i == 0 {
+        return [dx, v, 0.0, 0.0, 0.0];
+    }
+    let ddx = xs[i] - xs[i - 1];
+    let ddv = (ys[i] - ys[i - 1]) - b0 * ddx;
+    [dx, v, ddx * ddx, ddx * ddv, ddv * ddv]
+}
+
+// Four lanes for both passes: pair i in lane i mod 4, as in
+// `plumbfit_kernels::full_sums` (whose padded last block adds exact zeros).
+pub(crate) fn full_scalar(xs: &[f64], ys: &[f64], xc: f64, yc: f64, b0: f64) -> FullSums {
     let n = xs.len().min(ys.len());
-    let body = n / 4 * 4;
-    let mut l = [[0.0f64; 4]; 14];
+    let mut l1 = [[0.0f64; 4]; 5];
     let (mut xmin, mut xmax) = (f64::INFINITY, f64::NEG_INFINITY);
     let (mut ymin, mut ymax) = (f64::INFINITY, f64::NEG_INFINITY);
-    for (xq, yq) in xs[..body].chunks_exact(4).zip(ys[..body].chunks_exact(4)) {
-        for k in 0..4 {
-            let dx = xq[k] - xc;
-            let v = (yq[k] - yc) - b0 * dx;
-            let terms = centred_terms(dx - mx, v - mv);
-            for (lane, term) in l.iter_mut().zip(terms) {
-                lane[k] += term;
-            }
-            xmin = xmin.min(xq[k]);
-            xmax = xmax.max(xq[k]);
-            ymin = ymin.min(yq[k]);
-            ymax = ymax.max(yq[k]);
+    for i in 0..n {
+        let terms = first_terms(xs, ys, i, xc, yc, b0);
+        for (lane, term) in l1.iter_mut().zip(terms) {
+            lane[i % 4] += term;
         }
+        xmin = xmin.min(xs[i]);
+        xmax = xmax.max(xs[i]);
+        ymin = ymin.min(ys[i]);
+        ymax = ymax.max(ys[i]);
     }
-    let mut s = [0.0f64; 14];
-    for (sk, lane) in s.iter_mut().zip(&l) {
-        *sk = reduce4(lane);
-    }
-    let mut tail = [0.0f64; 14];
-    for (&x, &y) in xs[body..n].iter().zip(&ys[body..n]) {
-        let dx = x - xc;
-        let v = (y - yc) - b0 * dx;
+    let s1 = l1.map(|lane| reduce4(&lane));
+    let nf = n as f64;
+    let (mx, mv) = (s1[0] / nf, s1[1] / nf);
+    let mut l = [[0.0f64; 4]; 14];
+    for i in 0..n {
+        let dx = xs[i] - xc;
+        let v = (ys[i] - yc) - b0 * dx;
         let terms = centred_terms(dx - mx, v - mv);
-        for (tk, term) in tail.iter_mut().zip(terms) {
-            *tk += term;
+        for (lane, term) in l.iter_mut().zip(terms) {
+            lane[i % 4] += term;
         }
-        xmin = xmin.min(x);
-        xmax = xmax.max(x);
-        ymin = ymin.min(y);
-        ymax = ymax.max(y);
     }
-    for (sk, tk) in s.iter_mut().zip(tail) {
-        *sk += tk;
-    }
+    let s = l.map(|lane| reduce4(&lane));
     let mut m = [[0.0f64; 5]; 5];
     m[2][0] = s[2];
     m[1][1] = s[3];
@@ -313,60 +308,18 @@ pub(crate) fn centred_scalar(
     m[2][2] = s[11];
     m[1][3] = s[12];
     m[0][4] = s[13];
-    Centred {
+    FullSums {
+        sx: s1[0],
+        sv: s1[1],
         cu: s[0],
         ct: s[1],
         m,
+        lag: [s1[2], s1[3], s1[4]],
         xmin,
         xmax,
         ymin,
         ymax,
     }
-}
-
-/// Unweighted lag-1 sums within a chunk: SIMD when available.
-#[inline]
-pub(crate) fn lag_sums(xs: &[f64], ys: &[f64], b0: f64) -> [f64; 3] {
-    #[cfg(feature = "simd")]
-    {
-        if let Some(s) = plumbfit_kernels::lag_sums(xs, ys, b0) {
-            return s;
-        }
-    }
-    lag_scalar(xs, ys, b0)
-}
-
-// Four lanes over the terms i = 1..n (term i in lane (i − 1) mod 4), as in
-// `plumbfit_kernels::lag_sums`.
-pub(crate) fn lag_scalar(xs: &[f64], ys: &[f64], b0: f64) -> [f64; 3] {
-    let n = xs.len().min(ys.len());
-    if n < 2 {
-        return [0.0; 3];
-    }
-    let body = (n - 1) / 4 * 4;
-    let mut l = [[0.0f64; 4]; 3];
-    for j in 0..body {
-        let i = j + 1;
-        let ddx = xs[i] - xs[i - 1];
-        let ddv = (ys[i] - ys[i - 1]) - b0 * ddx;
-        let k = j % 4;
-        l[0][k] += ddx * ddx;
-        l[1][k] += ddx * ddv;
-        l[2][k] += ddv * ddv;
-    }
-    let mut t = [0.0f64; 3];
-    for i in body + 1..n {
-        let ddx = xs[i] - xs[i - 1];
-        let ddv = (ys[i] - ys[i - 1]) - b0 * ddx;
-        t[0] += ddx * ddx;
-        t[1] += ddx * ddv;
-        t[2] += ddv * ddv;
-    }
-    [
-        reduce4(&l[0]) + t[0],
-        reduce4(&l[1]) + t[1],
-        reduce4(&l[2]) + t[2],
-    ]
 }
 
 fn one_pass_weighted(xs: &[f64], ys: &[f64], ws: &[f64], xc: f64, yc: f64, b0: f64) -> Sums {
@@ -533,16 +486,14 @@ pub(crate) fn full_chunk(xs: &[f64], ys: &[f64], ws: Option<&[f64]>, b0: f64) ->
     }
 }
 
-/// Unweighted full summary: means from the one-pass kernel, then the
-/// centred pass (with Björck's correction) and the lag sums, all on data
-/// still in L1.
+/// Unweighted full summary: the two-pass kernel (means, extremes and lag
+/// sums, then centred sums with Björck's correction), the second pass on
+/// data still in cache.
 fn full_unweighted(xs: &[f64], ys: &[f64], xc: f64, yc: f64, b0: f64) -> FullChunk {
     let n = xs.len();
     let nf = n as f64;
-    let s = shifted_sums(xs, ys, xc, yc, b0);
-    let (mx, mv) = (s.sx / nf, s.sv / nf);
-    let c = centred_sums(xs, ys, xc, yc, b0, mx, mv);
-    let lag = lag_sums(xs, ys, b0);
+    let c = full_sums(xs, ys, xc, yc, b0);
+    let (mx, mv) = (c.sx / nf, c.sv / nf);
     let m = c.m;
     let lean = LeanChunk {
         n,
@@ -560,7 +511,7 @@ fn full_unweighted(xs: &[f64], ys: &[f64], xc: f64, yc: f64, b0: f64) -> FullChu
     FullChunk {
         lean,
         m,
-        lag,
+        lag: c.lag,
         xmin: c.xmin,
         xmax: c.xmax,
         ymin: c.ymin,
@@ -600,46 +551,76 @@ mod tests {
             let ys: Vec<f64> = (0..n).map(|i| (i % 7) as f64 - 3.0).collect();
             let (xc, yc, b0) = (2.0, 1.0, 0.5);
             let mut want = [0.0f64; 5];
-            let mut lag = [0.0f64; 3];
             for i in 0..n {
                 let dx = xs[i] - xc;
                 let v = (ys[i] - yc) - b0 * dx;
                 for (w, t) in want.iter_mut().zip([dx, v, dx * dx, dx * v, v * v]) {
                     *w += t;
                 }
-                if i > 0 {
-                    let ddx = xs[i] - xs[i - 1];
-                    let ddv = (ys[i] - ys[i - 1]) - b0 * ddx;
-                    lag[0] += ddx * ddx;
-                    lag[1] += ddx * ddv;
-                    lag[2] += ddv * ddv;
-                }
             }
             let s = shifted_scalar(&xs, &ys, xc, yc, b0);
             assert_eq!([s.sx, s.sv, s.sxx, s.sxv, s.svv], want, "n = {n}");
-            assert_eq!(lag_scalar(&xs, &ys, b0), lag, "n = {n}");
-            let c = centred_scalar(&xs, &ys, xc, yc, b0, 0.0, 0.0);
-            assert_eq!(
-                [c.cu, c.ct, c.m[2][0], c.m[1][1], c.m[0][2]],
-                want,
-                "n = {n}"
-            );
-            let m4: f64 = (0..n).map(|i| (xs[i] - xc).powi(4)).sum();
-            assert_eq!(c.m[4][0], m4, "n = {n}");
-            let lo = xs.iter().cloned().fold(f64::INFINITY, f64::min);
-            assert_eq!(c.xmin, lo);
+        }
+    }
+
+    /// Integer pairs whose `dx = x − xc` and `v = (y − yc) − b0·dx` (with
+    /// `b0 = 0.5`) are integers summing to 0, so the pass-1 means are 0 and
+    /// every term and partial sum of the full kernel is an exact integer.
+    fn zero_mean_pairs(n: usize, xc: f64, yc: f64) -> (Vec<i64>, Vec<i64>, Vec<f64>, Vec<f64>) {
+        let mut dx: Vec<i64> = (0..n).map(|i| (i % 13) as i64 - 6).collect();
+        let mut v: Vec<i64> = (0..n).map(|i| (i % 7) as i64 - 3).collect();
+        let (sdx, sv): (i64, i64) = (dx.iter().sum(), v.iter().sum());
+        dx[n - 1] -= sdx;
+        v[n - 1] -= sv;
+        let xs = dx.iter().map(|&d| xc + d as f64).collect();
+        let ys = (0..n)
+            .map(|i| yc + v[i] as f64 + 0.5 * dx[i] as f64)
+            .collect();
+        (dx, v, xs, ys)
+    }
+
+    #[test]
+    fn full_scalar_counts_every_pair_once() {
+        // Exact integer arithmetic (all values below 2^53), so the kernel
+        // must equal sums formed here in i64 exactly (tolerance 0).
+        for n in LENGTHS {
+            let (xc, yc, b0) = (2.0, 1.0, 0.5);
+            let (dx, v, xs, ys) = zero_mean_pairs(n, xc, yc);
+            let c = full_scalar(&xs, &ys, xc, yc, b0);
+            assert_eq!((c.sx, c.sv, c.cu, c.ct), (0.0, 0.0, 0.0, 0.0), "n = {n}");
+            for p in 0..=4u32 {
+                for q in 0..=(4 - p) {
+                    let want: i64 = (0..n).map(|i| dx[i].pow(p) * v[i].pow(q)).sum::<i64>()
+                        * i64::from(p + q >= 2);
+                    assert_eq!(c.m[p as usize][q as usize], want as f64, "n = {n} m{p}{q}");
+                }
+            }
+            let mut lag = [0i64; 3];
+            for i in 1..n {
+                let (ddx, ddv) = (dx[i] - dx[i - 1], v[i] - v[i - 1]);
+                lag[0] += ddx * ddx;
+                lag[1] += ddx * ddv;
+                lag[2] += ddv * ddv;
+            }
+            assert_eq!(c.lag, lag.map(|l| l as f64), "n = {n}");
+            let fold = |s: &[f64], f: fn(f64, f64) -> f64, z: f64| s.iter().cloned().fold(z, f);
+            assert_eq!(c.xmin, fold(&xs, f64::min, f64::INFINITY), "n = {n}");
+            assert_eq!(c.xmax, fold(&xs, f64::max, f64::NEG_INFINITY), "n = {n}");
+            assert_eq!(c.ymin, fold(&ys, f64::min, f64::INFINITY), "n = {n}");
+            assert_eq!(c.ymax, fold(&ys, f64::max, f64::NEG_INFINITY), "n = {n}");
         }
     }
 
     #[cfg(feature = "simd")]
     #[test]
     fn simd_kernels_equal_scalar_bit_for_bit() {
-        // The lane contract (plumbfit-kernels docs): no FMA, same lanes, same
-        // reduction order, so the results must be identical (tolerance 0).
+        // The lane contract (plumbfit-kernels docs): same operations, same
+        // lanes, same reduction order, so the results must be identical
+        // (tolerance 0).
         if plumbfit_kernels::active().is_none() {
             return; // No SIMD path on this CPU: the scalar kernel is all there is.
         }
-        for (seed, n) in LENGTHS.iter().enumerate() {
+        for (seed, n) in LENGTHS.iter().chain(&[LONG_CHUNK]).enumerate() {
             let (xs, ys) = data(*n, seed as u64 + 1);
             for b0 in [0.0, 2.5, -1e-3] {
                 let (xc, yc) = (xs[0], ys[0]);
@@ -647,20 +628,16 @@ mod tests {
                 let s = shifted_scalar(&xs, &ys, xc, yc, b0);
                 let simd = simd.map(|q| [q.sx, q.sv, q.sxx, q.sxv, q.svv]);
                 assert_eq!(simd, Some([s.sx, s.sv, s.sxx, s.sxv, s.svv]), "n = {n}");
-                let (mx, mv) = (s.sx / *n as f64, s.sv / *n as f64);
-                let c = centred_scalar(&xs, &ys, xc, yc, b0, mx, mv);
-                let q = plumbfit_kernels::centred_sums(&xs, &ys, xc, yc, b0, mx, mv);
-                let q = q.map(|q| (q.cu, q.ct, q.m, q.xmin, q.xmax, q.ymin, q.ymax));
-                assert_eq!(
-                    q,
-                    Some((c.cu, c.ct, c.m, c.xmin, c.xmax, c.ymin, c.ymax)),
-                    "n = {n}"
-                );
-                assert_eq!(
-                    plumbfit_kernels::lag_sums(&xs, &ys, b0),
-                    Some(lag_scalar(&xs, &ys, b0)),
-                    "n = {n}"
-                );
+                let c = full_scalar(&xs, &ys, xc, yc, b0);
+                for next in [false, true] {
+                    let q = plumbfit_kernels::full_sums(&xs, &ys, xc, yc, b0, next).map(|q| {
+                        let lim = (q.xmin, q.xmax, q.ymin, q.ymax);
+                        (q.sx, q.sv, q.cu, q.ct, q.m, q.lag, lim)
+                    });
+                    let lim = (c.xmin, c.xmax, c.ymin, c.ymax);
+                    let want = (c.sx, c.sv, c.cu, c.ct, c.m, c.lag, lim);
+                    assert_eq!(q, Some(want), "n = {n}");
+                }
             }
         }
     }

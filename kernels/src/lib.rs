@@ -14,10 +14,14 @@
 //!   the lanes reduce as `((l0+l4)+(l2+l6)) + ((l1+l5)+(l3+l7))`; the
 //!   remaining pairs are added in order into a separate sum that starts at
 //!   0 and is added last.
-//! * [`centred_sums`] and [`lag_sums`]: 4 lanes, reduced as
-//!   `(l0+l2) + (l1+l3)`, same tail rule (for the lag sums the terms are
-//!   numbered from the second pair). Minima and maxima are exact in any
-//!   order (inputs are finite; the caller rejects chunks with NaN).
+//! * [`full_sums`]: 4 lanes in every sum, reduced as `(l0+l2) + (l1+l3)`.
+//!   Pair `i` goes to lane `i mod 4`, all the way to the end: the last,
+//!   partial block is padded with zeros and its empty lanes masked to +0,
+//!   which leaves a lane's sum unchanged (a sum that starts at +0 is never
+//!   −0). The lag term of pair 0 (which has no predecessor) is +0 too. The
+//!   products are formed as listed in the scalar mirror (`u²·ut` for
+//!   `u³t`, and so on). Minima and maxima are exact in any order (inputs
+//!   are finite; the caller rejects chunks with NaN).
 //!
 //! Why AVX (256-bit) and not AVX-512: the chunk sums are limited by memory
 //! bandwidth once data leave the cache; at 4 lanes the arithmetic already
@@ -47,15 +51,24 @@ pub struct ShiftedSums {
     pub svv: f64,
 }
 
-/// Sums of one chunk about given means: `u = dx − mx`, `t = v − mv`.
+/// Everything the full tier needs from one unweighted chunk, in two
+/// passes over it (see [`full_sums`]).
 #[derive(Clone, Copy, Debug, Default, PartialEq)]
-pub struct CentredSums {
-    /// Σu (the rounding left in `mx`; Björck's correction term).
+pub struct FullSums {
+    /// Σdx (pass 1, 4 lanes), with `dx = x − xc`.
+    pub sx: f64,
+    /// Σv (pass 1, 4 lanes), with `v = (y − yc) − b0·dx`.
+    pub sv: f64,
+    /// Σu, `u = dx − mx`, `mx = sx / n` (the rounding left in `mx`;
+    /// Björck's correction term).
     pub cu: f64,
-    /// Σt.
+    /// Σt, `t = v − mv`, `mv = sv / n`.
     pub ct: f64,
     /// `m[p][q] = Σ u^p t^q` for `2 <= p + q <= 4`; other entries 0.
     pub m: [[f64; 5]; 5],
+    /// Lag-1 sums `[ΣΔx², ΣΔx·Δv, ΣΔv²]` over consecutive pairs, with
+    /// `Δx = x_i − x_(i−1)`, `Δv = (y_i − y_(i−1)) − b0·Δx`.
+    pub lag: [f64; 3],
     /// Smallest x.
     pub xmin: f64,
     /// Largest x.
@@ -94,41 +107,31 @@ pub fn shifted_sums(xs: &[f64], ys: &[f64], xc: f64, yc: f64, b0: f64) -> Option
     None
 }
 
-/// [`CentredSums`] of `xs`, `ys` about the means `(mx, mv)` of `dx`, `v`,
-/// or `None` when no SIMD path is available.
+/// [`FullSums`] of `xs`, `ys` (their common length) about the shift
+/// `(xc, yc)` and slope `b0`, or `None` when no SIMD path is available.
+///
+/// Pass 1 reads the chunk once (means, extremes, lag sums); pass 2 reads
+/// it again from cache (centred sums of orders 1–4). With `prefetch_next`
+/// the second pass also asks for the `xs.len()` values that follow each
+/// array in memory (the caller's next chunk), so that chunk streams in
+/// while this one is computed. It is only a hint: nothing past the slices
+/// is read.
 #[inline]
-pub fn centred_sums(
+pub fn full_sums(
     xs: &[f64],
     ys: &[f64],
     xc: f64,
     yc: f64,
     b0: f64,
-    mx: f64,
-    mv: f64,
-) -> Option<CentredSums> {
+    prefetch_next: bool,
+) -> Option<FullSums> {
     let n = xs.len().min(ys.len());
-    let _ = (n, xc, yc, b0, mx, mv);
+    let _ = (n, xc, yc, b0, prefetch_next);
     #[cfg(target_arch = "x86_64")]
     {
         if std::arch::is_x86_feature_detected!("avx") {
             // SAFETY: AVX is present (checked just above).
-            return Some(unsafe { avx::centred(&xs[..n], &ys[..n], xc, yc, b0, mx, mv) });
-        }
-    }
-    None
-}
-
-/// Lag-1 difference sums `[ΣΔx², ΣΔx·Δv, ΣΔv²]` over consecutive pairs,
-/// `Δv = Δy − b0·Δx`, or `None` when no SIMD path is available.
-#[inline]
-pub fn lag_sums(xs: &[f64], ys: &[f64], b0: f64) -> Option<[f64; 3]> {
-    let n = xs.len().min(ys.len());
-    let _ = (n, b0);
-    #[cfg(target_arch = "x86_64")]
-    {
-        if std::arch::is_x86_feature_detected!("avx") {
-            // SAFETY: AVX is present (checked just above).
-            return Some(unsafe { avx::lag(&xs[..n], &ys[..n], b0) });
+            return Some(unsafe { avx::full(&xs[..n], &ys[..n], xc, yc, b0, prefetch_next) });
         }
     }
     None
@@ -136,7 +139,7 @@ pub fn lag_sums(xs: &[f64], ys: &[f64], b0: f64) -> Option<[f64; 3]> {
 
 #[cfg(target_arch = "x86_64")]
 mod avx {
-    use super::{CentredSums, ShiftedSums};
+    use super::{FullSums, ShiftedSums};
     use std::arch::x86_64::*;
 
     /// `((l0+l4)+(l2+l6)) + ((l1+l5)+(l3+l7))` of lanes `a[0] ‖ a[1]`.
@@ -237,160 +240,344 @@ mod avx {
         }
     }
 
+    /// `acc + a·b` (a rounded product, then a rounded sum: no FMA).
+    #[inline]
     #[target_feature(enable = "avx")]
-    pub(super) fn centred(
+    fn madd(acc: __m256d, a: __m256d, b: __m256d) -> __m256d {
+        _mm256_add_pd(acc, _mm256_mul_pd(a, b))
+    }
+
+    /// `v` keeps the lanes of `m` that are all ones; the others become +0,
+    /// which added to a sum leaves it unchanged (a sum that starts at +0
+    /// is never −0).
+    #[inline]
+    #[target_feature(enable = "avx")]
+    fn keep(m: Option<__m256d>, v: __m256d) -> __m256d {
+        match m {
+            Some(m) => _mm256_and_pd(v, m),
+            None => v,
+        }
+    }
+
+    /// Lane mask with lanes `0..r` all ones.
+    #[inline]
+    #[target_feature(enable = "avx")]
+    fn lanes_below(r: usize) -> __m256d {
+        let on = |k: usize| if k < r { -1i64 } else { 0 };
+        _mm256_castsi256_pd(_mm256_set_epi64x(on(3), on(2), on(1), on(0)))
+    }
+
+    /// `[s[i], s[i+1], s[i+2], s[i+3]]` with the values past the end of `s`
+    /// taken as 0 (for the last, partial block).
+    #[inline]
+    #[target_feature(enable = "avx")]
+    fn padded(s: &[f64], i: usize) -> __m256d {
+        let mut q = [0.0f64; 4];
+        for (k, v) in q.iter_mut().enumerate() {
+            *v = s.get(i + k).copied().unwrap_or(0.0);
+        }
+        _mm256_setr_pd(q[0], q[1], q[2], q[3])
+    }
+
+    /// Means and extremes of one block of four pairs, `k = [xc, yc, b0]`:
+    /// `a = [Σdx, Σv, min x, max x, min y, max y]`; `m` masks the lanes
+    /// that hold pairs in a partial block.
+    #[inline]
+    #[target_feature(enable = "avx")]
+    fn mean_block(
+        a: &mut [__m256d; 6],
+        k: [__m256d; 3],
+        x: __m256d,
+        y: __m256d,
+        m: Option<__m256d>,
+    ) {
+        let [vxc, vyc, vb] = k;
+        let dx = _mm256_sub_pd(x, vxc);
+        let v = _mm256_sub_pd(_mm256_sub_pd(y, vyc), _mm256_mul_pd(vb, dx));
+        a[0] = _mm256_add_pd(a[0], keep(m, dx));
+        a[1] = _mm256_add_pd(a[1], keep(m, v));
+        let (x_lo, x_hi, y_lo, y_hi) = match m {
+            // Lanes without a pair take the identity of min and max.
+            Some(m) => {
+                let (inf, ninf) = (
+                    _mm256_set1_pd(f64::INFINITY),
+                    _mm256_set1_pd(f64::NEG_INFINITY),
+                );
+                (
+                    _mm256_blendv_pd(inf, x, m),
+                    _mm256_blendv_pd(ninf, x, m),
+                    _mm256_blendv_pd(inf, y, m),
+                    _mm256_blendv_pd(ninf, y, m),
+                )
+            }
+            None => (x, x, y, y),
+        };
+        a[2] = _mm256_min_pd(a[2], x_lo);
+        a[3] = _mm256_max_pd(a[3], x_hi);
+        a[4] = _mm256_min_pd(a[4], y_lo);
+        a[5] = _mm256_max_pd(a[5], y_hi);
+    }
+
+    /// Lag terms of one block of four pairs `x`, `y` whose predecessors are
+    /// `xp`, `yp` (lane by lane): `a = [ΣΔx², ΣΔx·Δv, ΣΔv²]`.
+    #[inline]
+    #[target_feature(enable = "avx")]
+    fn lag_block(
+        a: &mut [__m256d; 3],
+        vb: __m256d,
+        [x, y, xp, yp]: [__m256d; 4],
+        m: Option<__m256d>,
+    ) {
+        let ddx = _mm256_sub_pd(x, xp);
+        let ddv = _mm256_sub_pd(_mm256_sub_pd(y, yp), _mm256_mul_pd(vb, ddx));
+        a[0] = _mm256_add_pd(a[0], keep(m, _mm256_mul_pd(ddx, ddx)));
+        a[1] = _mm256_add_pd(a[1], keep(m, _mm256_mul_pd(ddx, ddv)));
+        a[2] = _mm256_add_pd(a[2], keep(m, _mm256_mul_pd(ddv, ddv)));
+    }
+
+    /// The first block's predecessors: pair 0 is given itself, which makes
+    /// its lag terms exactly +0, as if the term were skipped.
+    #[inline]
+    #[target_feature(enable = "avx")]
+    fn head(s: &[f64]) -> __m256d {
+        let at = |k: usize| s.get(k).copied().unwrap_or(0.0);
+        _mm256_setr_pd(at(0), at(0), at(1), at(2))
+    }
+
+    /// `(u, t)` of four pairs: `dx = x − xc`, `v = (y − yc) − b0·dx`,
+    /// `u = dx − mx`, `t = v − mv`, with `c = [xc, yc, b0, mx, mv]`.
+    #[inline]
+    #[target_feature(enable = "avx")]
+    fn centre(c: [__m256d; 5], x: __m256d, y: __m256d) -> (__m256d, __m256d) {
+        let [vxc, vyc, vb, vmx, vmv] = c;
+        let dx = _mm256_sub_pd(x, vxc);
+        let v = _mm256_sub_pd(_mm256_sub_pd(y, vyc), _mm256_mul_pd(vb, dx));
+        (_mm256_sub_pd(dx, vmx), _mm256_sub_pd(v, vmv))
+    }
+
+    /// Orders 1–3 of one block: `a = [cu, ct, m20, m11, m02, m30, m21,
+    /// m12, m03]`. Returns the block's `(u, t)` (0 in masked lanes).
+    #[inline]
+    #[target_feature(enable = "avx")]
+    fn low_block(
+        a: &mut [__m256d; 9],
+        c: [__m256d; 5],
+        x: __m256d,
+        y: __m256d,
+        m: Option<__m256d>,
+    ) -> [__m256d; 2] {
+        let (u, t) = centre(c, x, y);
+        let (u, t) = (keep(m, u), keep(m, t));
+        let u2 = _mm256_mul_pd(u, u);
+        let t2 = _mm256_mul_pd(t, t);
+        a[0] = _mm256_add_pd(a[0], u);
+        a[1] = _mm256_add_pd(a[1], t);
+        a[2] = _mm256_add_pd(a[2], u2);
+        a[3] = madd(a[3], u, t);
+        a[4] = _mm256_add_pd(a[4], t2);
+        a[5] = madd(a[5], u2, u);
+        a[6] = madd(a[6], u2, t);
+        a[7] = madd(a[7], u, t2);
+        a[8] = madd(a[8], t2, t);
+        [u, t]
+    }
+
+    /// Order 4 of one block from its `(u, t)`, as products of the
+    /// second-order terms `u², ut, t²`: `a = [m40, m31, m22, m13, m04]`.
+    #[inline]
+    #[target_feature(enable = "avx")]
+    fn high_block(a: &mut [__m256d; 5], [u, t]: [__m256d; 2]) {
+        let u2 = _mm256_mul_pd(u, u);
+        let w = _mm256_mul_pd(u, t);
+        let t2 = _mm256_mul_pd(t, t);
+        a[0] = madd(a[0], u2, u2);
+        a[1] = madd(a[1], u2, w);
+        a[2] = madd(a[2], u2, t2);
+        a[3] = madd(a[3], w, t2);
+        a[4] = madd(a[4], t2, t2);
+    }
+
+    /// Pairs per piece of pass 2: the piece's `(u, t)` (8 KiB) stay in L1
+    /// between the two loops.
+    const PIECE: usize = 512;
+
+    // Pair i goes to lane i mod 4 in every loop below; the last block is
+    // padded and masked. Each loop is its own (not inlined) function that
+    // keeps few enough sums and operands for the sixteen vector registers:
+    // a sum kept in memory puts a store and a reload on its dependency
+    // chain every iteration, and values live across a loop (results of
+    // the loops before) would otherwise crowd the sums out.
+
+    /// Pass 1, streaming from memory: `[Σdx, Σv, min x, max x, min y, max y]`.
+    #[inline(never)]
+    #[target_feature(enable = "avx")]
+    fn means_pass(xs: &[f64], ys: &[f64], xc: f64, yc: f64, b0: f64) -> [f64; 6] {
+        let (n, body) = (xs.len(), xs.len() / 4 * 4);
+        let k = [_mm256_set1_pd(xc), _mm256_set1_pd(yc), _mm256_set1_pd(b0)];
+        let z = _mm256_setzero_pd();
+        let (inf, ninf) = (
+            _mm256_set1_pd(f64::INFINITY),
+            _mm256_set1_pd(f64::NEG_INFINITY),
+        );
+        let mut a = [z, z, inf, ninf, inf, ninf];
+        let mut i = 0;
+        while i < body {
+            prefetch(xs, i + AHEAD);
+            prefetch(ys, i + AHEAD);
+            mean_block(&mut a, k, load(xs, i), load(ys, i), None);
+            i += 4;
+        }
+        if body < n {
+            let m = Some(lanes_below(n - body));
+            mean_block(&mut a, k, padded(xs, body), padded(ys, body), m);
+        }
+        [
+            reduce4(a[0]),
+            reduce4(a[1]),
+            hmin(a[2]),
+            hmax(a[3]),
+            hmin(a[4]),
+            hmax(a[5]),
+        ]
+    }
+
+    /// Lag sums, from cache: `[ΣΔx², ΣΔx·Δv, ΣΔv²]`.
+    #[inline(never)]
+    #[target_feature(enable = "avx")]
+    fn lag_pass(xs: &[f64], ys: &[f64], b0: f64) -> [f64; 3] {
+        let (n, body) = (xs.len(), xs.len() / 4 * 4);
+        let vb = _mm256_set1_pd(b0);
+        let mut a = [_mm256_setzero_pd(); 3];
+        if body > 0 {
+            let x4 = [load(xs, 0), load(ys, 0), head(xs), head(ys)];
+            lag_block(&mut a, vb, x4, None);
+        }
+        let mut i = 4;
+        while i < body {
+            let x4 = [load(xs, i), load(ys, i), load(xs, i - 1), load(ys, i - 1)];
+            lag_block(&mut a, vb, x4, None);
+            i += 4;
+        }
+        if body < n {
+            let (xp, yp) = if body == 0 {
+                (head(xs), head(ys))
+            } else {
+                (
+                    padded(&xs[..n - 1], body - 1),
+                    padded(&ys[..n - 1], body - 1),
+                )
+            };
+            let m = Some(lanes_below(n - body));
+            lag_block(&mut a, vb, [padded(xs, body), padded(ys, body), xp, yp], m);
+        }
+        [reduce4(a[0]), reduce4(a[1]), reduce4(a[2])]
+    }
+
+    /// Pass 2, orders 1–3, over pairs `from..to` of the chunk (`from` a
+    /// multiple of 4; a partial block only at the chunk's end), from cache,
+    /// with `c = [xc, yc, b0, mx, mv]`; each block's `(u, t)` goes to `ut`.
+    /// With `ahead`, asks for the values at the same place in the next
+    /// `n` values after each array.
+    #[inline(never)]
+    #[target_feature(enable = "avx")]
+    fn low_pass(
+        (xs, ys): (&[f64], &[f64]),
+        (from, to): (usize, usize),
+        c: [f64; 5],
+        ahead: bool,
+        acc: &mut [__m256d; 9],
+        ut: &mut [[__m256d; 2]],
+    ) {
+        let n = xs.len();
+        let body = from + (to - from) / 4 * 4;
+        let c = c.map(|v| _mm256_set1_pd(v));
+        let mut a = *acc;
+        let mut i = from;
+        let mut slots = ut.iter_mut();
+        while i < body {
+            if ahead {
+                prefetch(xs, n + i);
+                prefetch(ys, n + i);
+            }
+            let q = low_block(&mut a, c, load(xs, i), load(ys, i), None);
+            if let Some(slot) = slots.next() {
+                *slot = q;
+            }
+            i += 4;
+        }
+        if body < to {
+            let m = Some(lanes_below(to - body));
+            let q = low_block(&mut a, c, padded(xs, body), padded(ys, body), m);
+            if let Some(slot) = slots.next() {
+                *slot = q;
+            }
+        }
+        *acc = a;
+    }
+
+    /// Pass 2, order 4, over the `(u, t)` of one piece.
+    #[inline(never)]
+    #[target_feature(enable = "avx")]
+    fn high_pass(ut: &[[__m256d; 2]], acc: &mut [__m256d; 5]) {
+        let mut a = *acc;
+        for &q in ut {
+            high_block(&mut a, q);
+        }
+        *acc = a;
+    }
+
+    #[target_feature(enable = "avx")]
+    pub(super) fn full(
         xs: &[f64],
         ys: &[f64],
         xc: f64,
         yc: f64,
         b0: f64,
-        mx: f64,
-        mv: f64,
-    ) -> CentredSums {
-        let n = xs.len();
-        let body = n / 4 * 4;
-        let (vxc, vyc, vb) = (_mm256_set1_pd(xc), _mm256_set1_pd(yc), _mm256_set1_pd(b0));
-        let (vmx, vmv) = (_mm256_set1_pd(mx), _mm256_set1_pd(mv));
-        // a: [cu, ct, m20, m11, m02, m30, m21, m12, m03, m40, m31, m22, m13, m04]
-        let mut a = [_mm256_setzero_pd(); 14];
-        let mut xmin = _mm256_set1_pd(f64::INFINITY);
-        let mut ymin = xmin;
-        let mut xmax = _mm256_set1_pd(f64::NEG_INFINITY);
-        let mut ymax = xmax;
-        let mut i = 0;
-        while i < body {
-            let x = load(xs, i);
-            let y = load(ys, i);
-            let dx = _mm256_sub_pd(x, vxc);
-            let v = _mm256_sub_pd(_mm256_sub_pd(y, vyc), _mm256_mul_pd(vb, dx));
-            let u = _mm256_sub_pd(dx, vmx);
-            let t = _mm256_sub_pd(v, vmv);
-            let u2 = _mm256_mul_pd(u, u);
-            let t2 = _mm256_mul_pd(t, t);
-            let u3 = _mm256_mul_pd(u2, u);
-            let ut2 = _mm256_mul_pd(u, t2);
-            let terms = [
-                u,
-                t,
-                u2,
-                _mm256_mul_pd(u, t),
-                t2,
-                u3,
-                _mm256_mul_pd(u2, t),
-                ut2,
-                _mm256_mul_pd(t2, t),
-                _mm256_mul_pd(u2, u2),
-                _mm256_mul_pd(u3, t),
-                _mm256_mul_pd(u2, t2),
-                _mm256_mul_pd(ut2, t),
-                _mm256_mul_pd(t2, t2),
-            ];
-            for k in 0..14 {
-                a[k] = _mm256_add_pd(a[k], terms[k]);
-            }
-            xmin = _mm256_min_pd(xmin, x);
-            xmax = _mm256_max_pd(xmax, x);
-            ymin = _mm256_min_pd(ymin, y);
-            ymax = _mm256_max_pd(ymax, y);
-            i += 4;
+        prefetch_next: bool,
+    ) -> FullSums {
+        let n = xs.len().min(ys.len());
+        let (xs, ys) = (&xs[..n], &ys[..n]);
+        if n == 0 {
+            return FullSums::default();
         }
-        let mut s = [0.0f64; 14];
-        for k in 0..14 {
-            s[k] = reduce4(a[k]);
+        let [sx, sv, xmin, xmax, ymin, ymax] = means_pass(xs, ys, xc, yc, b0);
+        let nf = n as f64;
+        let c = [xc, yc, b0, sx / nf, sv / nf];
+        let lag = lag_pass(xs, ys, b0);
+        // Pass 2, from cache, piece by piece: orders 1–3 (keeping each
+        // block's u and t), then order 4 from the kept u and t.
+        let z = _mm256_setzero_pd();
+        let (mut a_lo, mut a_hi) = ([z; 9], [z; 5]);
+        let mut ut = [[z; 2]; PIECE / 4];
+        let mut from = 0;
+        while from < n {
+            let to = (from + PIECE).min(n);
+            low_pass((xs, ys), (from, to), c, prefetch_next, &mut a_lo, &mut ut);
+            high_pass(&ut[..(to - from).div_ceil(4)], &mut a_hi);
+            from = to;
         }
-        let mut tail = [0.0f64; 14];
-        let (mut x_lo, mut x_hi, mut y_lo, mut y_hi) =
-            (hmin(xmin), hmax(xmax), hmin(ymin), hmax(ymax));
-        for (&x, &y) in xs[body..].iter().zip(&ys[body..]) {
-            let dx = x - xc;
-            let v = (y - yc) - b0 * dx;
-            let (u, t) = (dx - mx, v - mv);
-            let (u2, t2) = (u * u, t * t);
-            let (u3, ut2) = (u2 * u, u * t2);
-            let terms = [
-                u,
-                t,
-                u2,
-                u * t,
-                t2,
-                u3,
-                u2 * t,
-                ut2,
-                t2 * t,
-                u2 * u2,
-                u3 * t,
-                u2 * t2,
-                ut2 * t,
-                t2 * t2,
-            ];
-            for k in 0..14 {
-                tail[k] += terms[k];
-            }
-            x_lo = x_lo.min(x);
-            x_hi = x_hi.max(x);
-            y_lo = y_lo.min(y);
-            y_hi = y_hi.max(y);
-        }
-        for k in 0..14 {
-            s[k] += tail[k];
-        }
+        let lo = a_lo.map(|v| reduce4(v));
+        let hi = a_hi.map(|v| reduce4(v));
         let mut m = [[0.0f64; 5]; 5];
-        m[2][0] = s[2];
-        m[1][1] = s[3];
-        m[0][2] = s[4];
-        m[3][0] = s[5];
-        m[2][1] = s[6];
-        m[1][2] = s[7];
-        m[0][3] = s[8];
-        m[4][0] = s[9];
-        m[3][1] = s[10];
-        m[2][2] = s[11];
-        m[1][3] = s[12];
-        m[0][4] = s[13];
-        CentredSums {
-            cu: s[0],
-            ct: s[1],
+        let low = [(2, 0), (1, 1), (0, 2), (3, 0), (2, 1), (1, 2), (0, 3)];
+        for (k, (p, q)) in low.into_iter().enumerate() {
+            m[p][q] = lo[k + 2];
+        }
+        let high = [(4, 0), (3, 1), (2, 2), (1, 3), (0, 4)];
+        for (k, (p, q)) in high.into_iter().enumerate() {
+            m[p][q] = hi[k];
+        }
+        FullSums {
+            sx,
+            sv,
+            cu: lo[0],
+            ct: lo[1],
             m,
-            xmin: x_lo,
-            xmax: x_hi,
-            ymin: y_lo,
-            ymax: y_hi,
+            lag,
+            xmin,
+            xmax,
+            ymin,
+            ymax,
         }
-    }
-
-    #[target_feature(enable = "avx")]
-    pub(super) fn lag(xs: &[f64], ys: &[f64], b0: f64) -> [f64; 3] {
-        let n = xs.len();
-        if n < 2 {
-            return [0.0; 3];
-        }
-        let terms = n - 1;
-        let body = terms / 4 * 4;
-        let vb = _mm256_set1_pd(b0);
-        let mut a = [_mm256_setzero_pd(); 3];
-        let mut j = 0;
-        while j < body {
-            let i = j + 1;
-            let ddx = _mm256_sub_pd(load(xs, i), load(xs, i - 1));
-            let ddy = _mm256_sub_pd(load(ys, i), load(ys, i - 1));
-            let ddv = _mm256_sub_pd(ddy, _mm256_mul_pd(vb, ddx));
-            a[0] = _mm256_add_pd(a[0], _mm256_mul_pd(ddx, ddx));
-            a[1] = _mm256_add_pd(a[1], _mm256_mul_pd(ddx, ddv));
-            a[2] = _mm256_add_pd(a[2], _mm256_mul_pd(ddv, ddv));
-            j += 4;
-        }
-        let mut t = [0.0f64; 3];
-        for i in body + 1..n {
-            let ddx = xs[i] - xs[i - 1];
-            let ddv = (ys[i] - ys[i - 1]) - b0 * ddx;
-            t[0] += ddx * ddx;
-            t[1] += ddx * ddv;
-            t[2] += ddv * ddv;
-        }
-        [
-            reduce4(a[0]) + t[0],
-            reduce4(a[1]) + t[1],
-            reduce4(a[2]) + t[2],
-        ]
     }
 }
