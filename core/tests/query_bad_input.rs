@@ -495,3 +495,193 @@ fn libm_ldexp(b: f64, k: i32) -> f64 {
     }
     v
 }
+
+// ---------------------------------------------------------------------------
+// Polynomial and weighted calibration, retained-data diagnostics.
+
+#[test]
+fn polynomial_calibration_refuses_bad_arguments() {
+    use plumbfit::calib::PolyCalibration;
+    let c3 = [0.1, 2.0, 0.05];
+    let cov3 = [1e-4, 0.0, 0.0, 0.0, 1e-4, 0.0, 0.0, 0.0, 1e-6];
+    let code = |r: Result<PolyCalibration, CalibError>| r.unwrap_err().code();
+    // Coefficient count outside 2..=9 (one coefficient has no slope).
+    assert_eq!(
+        code(PolyCalibration::new(&[1.0], &[1.0], 0.1, 5.0, (0.0, 4.0))),
+        30
+    );
+    assert_eq!(
+        code(PolyCalibration::new(
+            &[1.0; 10],
+            &[0.0; 100],
+            0.1,
+            5.0,
+            (0.0, 4.0)
+        )),
+        30
+    );
+    assert_eq!(
+        code(PolyCalibration::new(&[], &[], 0.1, 5.0, (0.0, 4.0))),
+        30
+    );
+    assert_eq!(
+        code(PolyCalibration::new(&c3, &cov3[..8], 0.1, 5.0, (0.0, 4.0))),
+        3
+    );
+    assert_eq!(
+        code(PolyCalibration::new(
+            &[0.1, NAN, 0.05],
+            &cov3,
+            0.1,
+            5.0,
+            (0.0, 4.0)
+        )),
+        1
+    );
+    let mut cov_inf = cov3;
+    cov_inf[4] = INF;
+    assert_eq!(
+        code(PolyCalibration::new(&c3, &cov_inf, 0.1, 5.0, (0.0, 4.0))),
+        1
+    );
+    for s in [-0.1, NAN, INF] {
+        assert_eq!(
+            code(PolyCalibration::new(&c3, &cov3, s, 5.0, (0.0, 4.0))),
+            32,
+            "s {s}"
+        );
+    }
+    let mut cov_neg = cov3;
+    cov_neg[0] = -1e-4;
+    assert_eq!(
+        code(PolyCalibration::new(&c3, &cov_neg, 0.1, 5.0, (0.0, 4.0))),
+        32
+    );
+    for df in [0.0, -1.0, NAN] {
+        assert_eq!(
+            code(PolyCalibration::new(&c3, &cov3, 0.1, df, (0.0, 4.0))),
+            36,
+            "df {df}"
+        );
+    }
+    for r in [(4.0, 0.0), (1.0, 1.0), (NAN, 4.0), (0.0, INF), (-INF, 1.0)] {
+        assert_eq!(
+            code(PolyCalibration::new(&c3, &cov3, 0.1, 5.0, r)),
+            31,
+            "range {r:?}"
+        );
+    }
+    let cal = PolyCalibration::new(&c3, &cov3, 0.1, 5.0, (0.0, 4.0)).unwrap();
+    let copy = cal;
+    let inv = |r: Reading| cal.invert(&r).map(|_| ()).unwrap_err().code();
+    assert_eq!(inv(Reading::single(NAN)), 1);
+    assert_eq!(inv(Reading::single(-INF)), 1);
+    assert_eq!(inv(Reading::mean_of(3.0, 0)), 7);
+    assert_eq!(inv(Reading::single(3.0).with_weight(0.0)), 2);
+    assert_eq!(inv(Reading::single(3.0).with_weight(NAN)), 2);
+    assert_eq!(inv(Reading::single(1e300)), 132); // no root in [0, 4]
+    for l in [0.0, 1.0, NAN, -0.5] {
+        let e = cal.invert_interval(&Reading::single(3.0), l).map(|_| ());
+        assert_eq!(e.unwrap_err().code(), 6, "level {l}");
+    }
+    assert_eq!(cal, copy);
+}
+
+#[test]
+fn weighted_calibration_refuses_bad_arguments() {
+    use plumbfit::calib::{user_weighted_line, weighted_line, VarianceShape};
+    use plumbfit::WeightMeaning;
+    let xs = [1.0, 2.0, 3.0, 4.0, 5.0];
+    let ys = [2.1, 3.9, 6.2, 7.8, 10.1];
+    let rel = WeightMeaning::Relative;
+    let code = |e: CalibError| e.code();
+    let wl = |x: &[f64], y: &[f64], s: VarianceShape, u: f64| weighted_line(x, y, s, rel, u);
+    assert_eq!(
+        code(wl(&xs, &ys[..4], VarianceShape::InverseX, 1.0).unwrap_err()),
+        3
+    );
+    // No pairs: too few points for a line (as documented; not code 4 here).
+    assert_eq!(
+        code(wl(&[], &[], VarianceShape::InverseX, 1.0).unwrap_err()),
+        101
+    );
+    assert_eq!(
+        code(wl(&[1.0, NAN, 3.0], &ys[..3], VarianceShape::InverseX, 1.0).unwrap_err()),
+        1
+    );
+    for u in [0.0, -1.0, NAN, INF] {
+        assert_eq!(
+            code(wl(&xs, &ys, VarianceShape::InverseX, u).unwrap_err()),
+            32,
+            "u {u}"
+        );
+    }
+    // 1/x weights are undefined at x = 0 and below.
+    let bad_x = [0.0, 1.0, 2.0, 3.0, 4.0];
+    assert_eq!(
+        code(wl(&bad_x, &ys, VarianceShape::InverseX, 1.0).unwrap_err()),
+        33
+    );
+    let bad_y = [2.1, 0.0, 6.2, 7.8, 10.1];
+    assert_eq!(
+        code(wl(&xs, &bad_y, VarianceShape::InverseY2, 1.0).unwrap_err()),
+        33
+    );
+    let mp = VarianceShape::MeanPower { power: NAN };
+    assert!(wl(&xs, &ys, mp, 1.0).is_err(), "a NaN power is refused");
+    let uw = |ws: &[f64]| user_weighted_line(&xs, &ys, ws, rel).unwrap_err().code();
+    assert_eq!(uw(&[1.0, 1.0, 0.0, 1.0, 1.0]), 2);
+    assert_eq!(uw(&[1.0, -2.0, 1.0, 1.0, 1.0]), 2);
+    assert_eq!(uw(&[1.0, 1.0, 1.0, 1.0, NAN]), 2);
+    assert_eq!(uw(&[1.0; 4]), 3);
+    let cal = wl(&xs, &ys, VarianceShape::InverseX, 1.0).unwrap();
+    assert_eq!(code(cal.reading(NAN, 1).unwrap_err()), 1);
+    assert_eq!(code(cal.reading(3.0, 0).unwrap_err()), 7);
+}
+
+#[test]
+fn retained_residual_writers_refuse_and_write_nothing() {
+    use plumbfit::diag::{influence_into, residuals_into, PointInfluence, ResidualSet};
+    let f = line_fit(false);
+    let sentinel = -12345.5;
+    let mut out = [sentinel; 12];
+    let mut check = |xs: &[f64], ys: &[f64], fit: &plumbfit::LineFit, cap: usize, want: u16| {
+        let e = residuals_into(xs, ys, fit, &mut out[..cap]).unwrap_err();
+        assert_eq!(e.code(), want, "{e:?}");
+        assert!(out.iter().all(|&v| v == sentinel), "out written on error");
+    };
+    check(&XS, &YS[..9], &f, 12, 3);
+    check(&[], &[], &f, 12, 4);
+    let mut nan_x = XS;
+    nan_x[7] = NAN;
+    check(&nan_x, &YS, &f, 12, 1);
+    let mut inf_y = YS;
+    inf_y[0] = -INF;
+    check(&XS, &inf_y, &f, 12, 1);
+    check(&XS[..9], &YS[..9], &f, 12, 42);
+    check(&XS, &YS, &f, 9, 40);
+    check(&XS, &YS, &line_fit(true), 12, 41);
+    let mut w = PairMoments::<Lean>::new();
+    w.extend_weighted(
+        &XS,
+        &YS,
+        &[1.0, 2.0, 1.0, 2.0, 1.0, 2.0, 1.0, 2.0, 1.0, 2.0],
+    )
+    .unwrap();
+    check(&XS, &YS, &w.fit().unwrap(), 12, 141);
+    let mut g = PairMoments::<Lean>::new();
+    g.extend(&XS, &YS).unwrap();
+    g.forget(0.5).unwrap();
+    check(&XS, &YS, &g.fit().unwrap(), 12, 142);
+    let mut infl = [PointInfluence::default(); 12];
+    let before = infl;
+    assert_eq!(
+        influence_into(&XS, &YS, &f, &mut infl[..9])
+            .unwrap_err()
+            .code(),
+        40
+    );
+    assert_eq!(infl, before);
+    assert_eq!(ResidualSet::new(&XS, &YS[..9], &f).unwrap_err().code(), 3);
+    assert_eq!(ResidualSet::new(&nan_x, &YS, &f).unwrap_err().code(), 1);
+}
