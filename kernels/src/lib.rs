@@ -408,10 +408,11 @@ mod avx {
     // chain every iteration, and values live across a loop (results of
     // the loops before) would otherwise crowd the sums out.
 
-    /// Pass 1, streaming from memory: `[Σdx, Σv, min x, max x, min y, max y]`.
+    /// Pass 1, streaming from memory: `[Σdx, Σv, min x, max x, min y,
+    /// max y]` and the lag sums `[ΣΔx², ΣΔx·Δv, ΣΔv²]`.
     #[inline(never)]
     #[target_feature(enable = "avx")]
-    fn means_pass(xs: &[f64], ys: &[f64], xc: f64, yc: f64, b0: f64) -> [f64; 6] {
+    fn first_pass(xs: &[f64], ys: &[f64], xc: f64, yc: f64, b0: f64) -> ([f64; 6], [f64; 3]) {
         let (n, body) = (xs.len(), xs.len() / 4 * 4);
         let k = [_mm256_set1_pd(xc), _mm256_set1_pd(yc), _mm256_set1_pd(b0)];
         let z = _mm256_setzero_pd();
@@ -420,45 +421,25 @@ mod avx {
             _mm256_set1_pd(f64::NEG_INFINITY),
         );
         let mut a = [z, z, inf, ninf, inf, ninf];
-        let mut i = 0;
+        let mut l = [z; 3];
+        if body > 0 {
+            let (x, y) = (load(xs, 0), load(ys, 0));
+            mean_block(&mut a, k, x, y, None);
+            lag_block(&mut l, k[2], [x, y, head(xs), head(ys)], None);
+        }
+        let mut i = 4;
         while i < body {
             prefetch(xs, i + AHEAD);
             prefetch(ys, i + AHEAD);
-            mean_block(&mut a, k, load(xs, i), load(ys, i), None);
+            let (x, y) = (load(xs, i), load(ys, i));
+            mean_block(&mut a, k, x, y, None);
+            lag_block(&mut l, k[2], [x, y, load(xs, i - 1), load(ys, i - 1)], None);
             i += 4;
         }
         if body < n {
             let m = Some(lanes_below(n - body));
-            mean_block(&mut a, k, padded(xs, body), padded(ys, body), m);
-        }
-        [
-            reduce4(a[0]),
-            reduce4(a[1]),
-            hmin(a[2]),
-            hmax(a[3]),
-            hmin(a[4]),
-            hmax(a[5]),
-        ]
-    }
-
-    /// Lag sums, from cache: `[ΣΔx², ΣΔx·Δv, ΣΔv²]`.
-    #[inline(never)]
-    #[target_feature(enable = "avx")]
-    fn lag_pass(xs: &[f64], ys: &[f64], b0: f64) -> [f64; 3] {
-        let (n, body) = (xs.len(), xs.len() / 4 * 4);
-        let vb = _mm256_set1_pd(b0);
-        let mut a = [_mm256_setzero_pd(); 3];
-        if body > 0 {
-            let x4 = [load(xs, 0), load(ys, 0), head(xs), head(ys)];
-            lag_block(&mut a, vb, x4, None);
-        }
-        let mut i = 4;
-        while i < body {
-            let x4 = [load(xs, i), load(ys, i), load(xs, i - 1), load(ys, i - 1)];
-            lag_block(&mut a, vb, x4, None);
-            i += 4;
-        }
-        if body < n {
+            let (x, y) = (padded(xs, body), padded(ys, body));
+            mean_block(&mut a, k, x, y, m);
             let (xp, yp) = if body == 0 {
                 (head(xs), head(ys))
             } else {
@@ -467,10 +448,19 @@ mod avx {
                     padded(&ys[..n - 1], body - 1),
                 )
             };
-            let m = Some(lanes_below(n - body));
-            lag_block(&mut a, vb, [padded(xs, body), padded(ys, body), xp, yp], m);
+            lag_block(&mut l, k[2], [x, y, xp, yp], m);
         }
-        [reduce4(a[0]), reduce4(a[1]), reduce4(a[2])]
+        (
+            [
+                reduce4(a[0]),
+                reduce4(a[1]),
+                hmin(a[2]),
+                hmax(a[3]),
+                hmin(a[4]),
+                hmax(a[5]),
+            ],
+            [reduce4(l[0]), reduce4(l[1]), reduce4(l[2])],
+        )
     }
 
     /// Pass 2, orders 1–3, over pairs `from..to` of the chunk (`from` a
@@ -540,10 +530,9 @@ mod avx {
         if n == 0 {
             return FullSums::default();
         }
-        let [sx, sv, xmin, xmax, ymin, ymax] = means_pass(xs, ys, xc, yc, b0);
+        let ([sx, sv, xmin, xmax, ymin, ymax], lag) = first_pass(xs, ys, xc, yc, b0);
         let nf = n as f64;
         let c = [xc, yc, b0, sx / nf, sv / nf];
-        let lag = lag_pass(xs, ys, b0);
         // Pass 2, from cache, piece by piece: orders 1–3 (keeping each
         // block's u and t), then order 4 from the kept u and t.
         let z = _mm256_setzero_pd();
