@@ -45,7 +45,7 @@ pub const STAGE: usize = 8;
 /// out of the push).
 pub const PENDING_BLOCK: usize = 256;
 
-/// Sets of block sums, by pair position modulo this (see [`Pending`]);
+/// Sets of block sums, by pair position modulo this (see the pending-block notes);
 /// one set measured 1.5 times slower per push.
 const PEND_LANES: usize = 4;
 
@@ -59,71 +59,28 @@ const PEND_SLOPE: f64 = 1.5692754338466702e57;
 /// Bound on the state's sums and weights for opening a block (2^1000).
 const PEND_BIG: f64 = 1.0715086071862673e301;
 
-/// Unit-weight pushes not yet folded into the centred moments (lean tier,
-/// framed state only): sums of `d = dx − mx` and `e = v − mv`, the pair's
-/// offsets in the frame from the state's means. The means do not change
-/// while a block is open (everything that changes the moments folds the
-/// block first), so the block needs no shift of its own. About the means,
-/// a sum's rounding is relative to what the block adds to the state's
-/// moments (`Σd² = S_block + n·d̄²`, and the merge adds exactly those two
-/// parts), as in a one-pair centred update. Empty (all zero) when
-/// `len == 0`.
-///
-/// The block opens only on a state whose sums and means are within
-/// `PEND_BIG` and `PEND_LIMIT` (and `|b0| <= PEND_SLOPE`), and takes only
-/// pairs with `d² + e² <= PEND_LIMIT²`. Then `Σd² <= 2^608` for at most
-/// [`PENDING_BLOCK`] pairs and the fold's terms stay below 2^1001, so the
-/// fold cannot overflow: every push into the block is final when it
-/// returns.
-#[derive(Clone, Copy, Debug, PartialEq)]
-pub(crate) struct Pending {
-    /// Pairs in the block, `0..=PENDING_BLOCK`.
-    pub(crate) len: u32,
-    /// `s[i] = [Σd, Σe, Σd², Σd·e, Σe²]` over the block's pairs at
-    /// positions `≡ i (mod PEND_LANES)`. Separate sets keep the adds
-    /// through memory from forming one dependency chain across pushes.
-    pub(crate) s: [[f64; 5]; PEND_LANES],
-}
-
-impl Pending {
-    pub(crate) const EMPTY: Pending = Pending {
-        len: 0,
-        s: [[0.0; 5]; PEND_LANES],
-    };
-
-    /// The block's sums, the position sets added in order.
-    pub(crate) fn sums(&self) -> [f64; 5] {
-        let mut t = [0.0; 5];
-        for l in &self.s {
-            for (t, v) in t.iter_mut().zip(l) {
-                *t += v;
-            }
-        }
-        t
-    }
-
-    /// Whether the block's length and sums are ones its pushes can reach:
-    /// each position set holds `m` pairs with `d² + e² <= PEND_LIMIT²`, so
-    /// its sums are within `2m` times the one-pair bounds (then the fold
-    /// cannot overflow). The state bounds are checked by the caller.
-    pub(crate) fn sums_in_bounds(&self) -> bool {
-        let k = self.len as usize;
-        k <= PENDING_BLOCK
-            && self.s.iter().enumerate().all(|(i, set)| {
-                // Positions i, i + PEND_LANES, ... below k.
-                let m = ((k + PEND_LANES - 1 - i) / PEND_LANES) as f64;
-                let [sd, se, sdd, sde, see] = *set;
-                // Twice the bound: room for the rounding of the sums.
-                let (l1, l2) = (2.0 * m * PEND_LIMIT, 2.0 * m * PEND_LIMIT_SQ);
-                sd.abs() <= l1
-                    && se.abs() <= l1
-                    && sdd >= 0.0
-                    && see >= 0.0
-                    && sdd + see <= l2
-                    && sde.abs() <= l2
-            })
-    }
-}
+// Pending-block notes. The pending block: unit-weight pushes not yet folded into the centred
+// moments (lean tier, framed state only). It holds sums of `d = dx − mx`
+// and `e = v − mv`, the pair's offsets in the frame from the state's means.
+// The means do not change while a block is open (everything that changes
+// the moments folds the block first), so the block needs no shift of its
+// own. About the means, a sum's rounding is relative to what the block adds
+// to the state's moments (`Σd² = S_block + n·d̄²`, and the merge adds
+// exactly those two parts), as in a one-pair centred update.
+//
+// Storage: `pend_len` pairs, and the sums in the stage array, which is
+// empty once the frame is fitted: position set `i` (the block's pairs at
+// positions `≡ i (mod PEND_LANES)`) in rows `2i` and `2i + 1` as
+// `[Σd, Σe, Σd²]`, `[Σd·e, Σe², 0]`. Separate sets keep the adds through
+// memory from forming one dependency chain across pushes. All zero when
+// `pend_len == 0`.
+//
+// The block opens only on a state whose sums and means are within
+// `PEND_BIG` and `PEND_LIMIT` (and `|b0| <= PEND_SLOPE`), and takes only
+// pairs with `d² + e² <= PEND_LIMIT²`. Then `Σd² <= 2^608` for at most
+// `PENDING_BLOCK` pairs and the fold's terms stay below 2^1001, so the
+// fold cannot overflow: every push into the block is final when it returns.
+const _: () = assert!(2 * PEND_LANES == STAGE && PENDING_BLOCK < u16::MAX as usize);
 
 /// Errors from updating a pair-moment accumulator. The accumulator is left
 /// exactly as it was before the failing call.
@@ -310,11 +267,13 @@ pub struct PairMoments<T: Tier> {
     pub(crate) sxx: f64,
     pub(crate) sxv: f64,
     pub(crate) svv: f64,
+    /// Before the frame is fitted, the staged raw pairs `(x, y, w)`;
+    /// after, the pending block's sums (see the pending-block notes).
     pub(crate) stage: [[f64; 3]; STAGE],
     pub(crate) stage_len: u8,
-    /// Pushes not yet folded (lean tier only; always empty in the full
-    /// tier). Every query folds them on a copy.
-    pub(crate) pend: Pending,
+    /// Pairs in the pending block (lean tier only, framed; its sums are
+    /// in `stage`). Every query folds them on a copy.
+    pub(crate) pend_len: u16,
     pub(crate) hi: <T as sealed::Sealed>::Extra,
 }
 
@@ -449,7 +408,7 @@ impl<T: Tier> PairMoments<T> {
             svv: 0.0,
             stage: [[0.0; 3]; STAGE],
             stage_len: 0,
-            pend: Pending::EMPTY,
+            pend_len: 0,
             hi: <<T as sealed::Sealed>::Extra as ConstDefault>::DEFAULT,
         }
     }
@@ -466,24 +425,24 @@ impl<T: Tier> PairMoments<T> {
             check_pair(x, y, 0)?;
             return self.push_checked(x, y, 1.0);
         }
-        let k = self.pend.len;
+        let k = self.pend_len;
         // An open block with room: the state was checked when the block
         // opened and does not change while it is open, so only the pair is
         // checked here. The sums are independent adds, not a chain through
         // the means.
-        if k.wrapping_sub(1) < PENDING_BLOCK as u32 - 1 {
+        if k.wrapping_sub(1) < PENDING_BLOCK as u16 - 1 {
             let (d, e) = self.pending_offsets(x, y);
             let (dd, de, ee) = (d * d, d * e, e * e);
             // `d² + e² <= 2^600` implies `|d|, |e| <= 2^300`; NaN,
             // infinities and squares that overflow all fail it.
             if dd + ee <= PEND_LIMIT_SQ {
-                let s = &mut self.pend.s[k as usize % PEND_LANES];
-                s[0] += d;
-                s[1] += e;
-                s[2] += dd;
-                s[3] += de;
-                s[4] += ee;
-                self.pend.len = k + 1;
+                let i = 2 * (k as usize % PEND_LANES);
+                self.stage[i][0] += d;
+                self.stage[i][1] += e;
+                self.stage[i][2] += dd;
+                self.stage[i + 1][0] += de;
+                self.stage[i + 1][1] += ee;
+                self.pend_len = k + 1;
                 return Ok(());
             }
         }
@@ -495,7 +454,7 @@ impl<T: Tier> PairMoments<T> {
     #[inline(never)]
     fn push_other(&mut self, x: f64, y: f64) -> Result<(), MomentsError> {
         check_pair(x, y, 0)?;
-        if self.pend.len == 0 {
+        if self.pend_len == 0 {
             if self.try_open(x, y) {
                 return Ok(());
             }
@@ -519,10 +478,10 @@ impl<T: Tier> PairMoments<T> {
     }
 
     /// Opens a pending block with `(x, y)` as its first pair if the state
-    /// and the pair are within the bounds of [`Pending`]; `false` (nothing
+    /// and the pair are within the pending-block bounds; `false` (nothing
     /// changed) otherwise.
     fn try_open(&mut self, x: f64, y: f64) -> bool {
-        if T::IS_FULL || !self.framed || self.slope_free || self.pend.len != 0 {
+        if T::IS_FULL || !self.framed || self.slope_free || self.pend_len != 0 {
             return false;
         }
         if !self.state_in_pending_bounds() {
@@ -533,14 +492,14 @@ impl<T: Tier> PairMoments<T> {
         if !(dd + ee <= PEND_LIMIT_SQ) {
             return false;
         }
-        let mut p = Pending::EMPTY;
-        p.len = 1;
-        p.s[0] = [d, e, dd, de, ee];
-        self.pend = p;
+        // The stage is empty (all zero) in a framed state.
+        self.stage[0] = [d, e, dd];
+        self.stage[1] = [de, ee, 0.0];
+        self.pend_len = 1;
         true
     }
 
-    /// The state bounds under which a block may be open (see [`Pending`]).
+    /// The state bounds under which a block may be open (see the pending-block notes).
     pub(crate) fn state_in_pending_bounds(&self) -> bool {
         self.b0.abs() <= PEND_SLOPE
             && self.mx.abs() <= PEND_LIMIT
@@ -553,16 +512,61 @@ impl<T: Tier> PairMoments<T> {
             && self.count <= 1 << 62
     }
 
+    /// The pending block's `[Σd, Σe, Σd², Σd·e, Σe²]`, the position sets
+    /// added in order.
+    pub(crate) fn pending_sums(&self) -> [f64; 5] {
+        let mut t = [0.0; 5];
+        for r in self.stage.chunks_exact(2) {
+            let set = [r[0][0], r[0][1], r[0][2], r[1][0], r[1][1]];
+            for (t, v) in t.iter_mut().zip(set) {
+                *t += v;
+            }
+        }
+        t
+    }
+
+    /// Whether the pending block's length and sums are ones its pushes can
+    /// reach from this state: the state within the bounds a block opens
+    /// under, and each position set holding `m` pairs with
+    /// `d² + e² <= PEND_LIMIT²`, so within `2m` times the one-pair bounds
+    /// (room for the rounding of the sums). Then the fold cannot overflow.
+    pub(crate) fn pending_in_bounds(&self) -> bool {
+        let k = self.pend_len as usize;
+        if k == 0 {
+            return self.stage.iter().flatten().all(|&v| v == 0.0);
+        }
+        let sets_ok = self.stage.chunks_exact(2).enumerate().all(|(i, r)| {
+            // Positions i, i + PEND_LANES, ... below k.
+            let m = ((k + PEND_LANES - 1 - i) / PEND_LANES) as f64;
+            let [sd, se, sdd] = r[0];
+            let [sde, see, pad] = r[1];
+            let (l1, l2) = (2.0 * m * PEND_LIMIT, 2.0 * m * PEND_LIMIT_SQ);
+            sd.abs() <= l1
+                && se.abs() <= l1
+                && sdd >= 0.0
+                && see >= 0.0
+                && sdd + see <= l2
+                && sde.abs() <= l2
+                && pad == 0.0
+        });
+        !T::IS_FULL
+            && self.framed
+            && !self.slope_free
+            && k <= PENDING_BLOCK
+            && self.state_in_pending_bounds()
+            && sets_ok
+    }
+
     /// Folds the pending block into the centred moments: the block's sums
     /// about the means give its own centred moments and its mean offset,
     /// merged as any chunk is (Chan–Golub–LeVeque). Atomic; cannot fail
-    /// for a block that kept the bounds of [`Pending`].
+    /// for a block that kept the pending-block bounds.
     pub(crate) fn fold_pending(&mut self) -> Result<(), MomentsError> {
-        let k = self.pend.len;
+        let k = self.pend_len;
         if k == 0 {
             return Ok(());
         }
-        let [s_x, s_v, s_xx, s_xv, s_vv] = self.pend.sums();
+        let [s_x, s_v, s_xx, s_xv, s_vv] = self.pending_sums();
         let n = k as f64;
         // The block's mean offsets from the state's means, and its centred
         // moments (exact values are non-negative; a negative one is
@@ -592,7 +596,8 @@ impl<T: Tier> PairMoments<T> {
         self.sxv = sxv;
         self.svv = svv;
         self.count = count;
-        self.pend = Pending::EMPTY;
+        self.stage = [[0.0; 3]; STAGE];
+        self.pend_len = 0;
         Ok(())
     }
 
@@ -613,7 +618,7 @@ impl<T: Tier> PairMoments<T> {
     }
 
     fn push_checked(&mut self, x: f64, y: f64, w: f64) -> Result<(), MomentsError> {
-        if self.pend.len > 0 {
+        if self.pend_len > 0 {
             // Earlier pushes come first.
             let mut t = *self;
             t.fold_pending()?;
@@ -1186,7 +1191,7 @@ impl<T: Tier> PairMoments<T> {
 
     /// Number of pairs added (forgetting does not change it).
     pub fn count(&self) -> u64 {
-        self.count + self.stage_len as u64 + self.pend.len as u64
+        self.count + self.stage_len as u64 + self.pend_len as u64
     }
 
     /// Whether no pair has been added.

@@ -40,7 +40,7 @@
 //! ```
 
 use crate::model::{self, ModelCore, ModelMoments, LAYOUT_TAG, MAX_PARAMS};
-use crate::moments::{HigherMoments, NoExtra, PairMoments, Pending, Tier, PENDING_BLOCK, STAGE};
+use crate::moments::{HigherMoments, NoExtra, PairMoments, Tier, PENDING_BLOCK, STAGE};
 use crate::{Full, Lean};
 use alloc::vec;
 use alloc::vec::Vec;
@@ -158,8 +158,8 @@ pub enum StateField {
     /// A staged pair (non-finite value, non-positive weight, or a nonzero
     /// unused slot).
     Stage,
-    /// The lean pending block: its length, first pair or sums (out of
-    /// bounds, in a state that cannot hold one, or a nonzero unused slot).
+    /// The lean pending block: its length or sums (out of bounds, in a
+    /// state that cannot hold one, or a nonzero unused slot).
     Pending,
     /// The frame `x0`, `y0`, `b0`.
     Frame,
@@ -804,7 +804,7 @@ impl<T: StateTier> PairMoments<T> {
                     flags |= bit;
                 }
             }
-            let pend = (self.pend.len as u16).to_le_bytes();
+            let pend = self.pend_len.to_le_bytes();
             w.bytes(&[flags, self.stage_len, pend[0], pend[1], 0, 0, 0, 0]);
             for v in [
                 self.w, self.w2, self.x0, self.y0, self.b0, self.mx, self.mv, self.sxx, self.sxv,
@@ -812,23 +812,11 @@ impl<T: StateTier> PairMoments<T> {
             ] {
                 w.f64(v);
             }
-            // One area: the stage before the frame is fitted, the pending
-            // block after (the stage is then empty).
-            if self.framed {
-                let p = &self.pend;
-                let mut n = 0;
-                for v in p.s.into_iter().flatten() {
+            // The stage before the frame is fitted, the pending block's
+            // sums after.
+            for p in self.stage {
+                for v in p {
                     w.f64(v);
-                    n += 1;
-                }
-                for _ in n..STAGE * 3 {
-                    w.f64(0.0);
-                }
-            } else {
-                for p in self.stage {
-                    for v in p {
-                        w.f64(v);
-                    }
                 }
             }
             let at = w.at;
@@ -883,19 +871,16 @@ impl<T: StateTier> PairMoments<T> {
         a.sxx = r.f64();
         a.sxv = r.f64();
         a.svv = r.f64();
-        let mut area = [0.0f64; STAGE * 3];
-        for v in area.iter_mut() {
-            *v = r.f64();
-        }
-        if a.framed {
-            check(pend_len as usize <= PENDING_BLOCK, StateField::Pending)?;
-            a.pend = pending_from(pend_len, &area)?;
-        } else {
-            check(pend_len == 0, StateField::Pending)?;
-            for (slot, v) in a.stage.iter_mut().zip(area.chunks_exact(3)) {
-                slot.copy_from_slice(v);
+        for p in a.stage.iter_mut() {
+            for v in p.iter_mut() {
+                *v = r.f64();
             }
         }
+        check(
+            pend_len as usize <= PENDING_BLOCK && (a.framed || pend_len == 0),
+            StateField::Pending,
+        )?;
+        a.pend_len = pend_len;
         check_base(&a)?;
         T::get_extra(&mut a, &r.b[r.at..])?;
         Ok(a)
@@ -906,7 +891,8 @@ impl<T: StateTier> PairMoments<T> {
 fn check_base<T: Tier>(a: &PairMoments<T>) -> Result<(), StateError> {
     let k = a.stage_len as usize;
     let unit = !a.weighted && !a.forgotten;
-    for (i, p) in a.stage.iter().enumerate() {
+    // Framed: the stage area holds the pending block, checked last.
+    for (i, p) in a.stage.iter().enumerate().filter(|_| !a.framed) {
         let ok = if i < k {
             p[0].is_finite()
                 && p[1].is_finite()
@@ -955,34 +941,11 @@ fn check_base<T: Tier>(a: &PairMoments<T>) -> Result<(), StateError> {
             StateField::Flags,
         )?;
     }
-    if a.pend.len > 0 {
-        // Only a lean state within the bounds a block opens under, and sums
-        // a block's pushes can reach: then every later push and the fold
-        // keep their guarantees.
-        check(
-            !T::IS_FULL && !a.slope_free && a.state_in_pending_bounds() && a.pend.sums_in_bounds(),
-            StateField::Pending,
-        )?;
-    }
-    Ok(())
-}
-
-/// The pending block from the shared stage/block area of a framed state:
-/// the sums by position set, then zeros.
-fn pending_from(len: u16, area: &[f64; STAGE * 3]) -> Result<Pending, StateError> {
-    let mut p = Pending::EMPTY;
-    p.len = len as u32;
-    let mut at = 0;
-    for set in p.s.iter_mut() {
-        let n = set.len();
-        set.copy_from_slice(&area[at..at + n]);
-        at += n;
-    }
-    // Unused slots zero, and an empty block all zero (as a version 1 state).
-    let unused_zero = area[at..].iter().all(|&v| v == 0.0);
-    let empty_ok = len > 0 || area.iter().all(|&v| v == 0.0);
-    check(unused_zero && empty_ok, StateField::Pending)?;
-    Ok(p)
+    // The pending block (all zero when empty, as in every version 1
+    // state): only a lean state within the bounds a block opens under,
+    // with sums a block's pushes can reach, so every later push and the
+    // fold keep their guarantees.
+    check(a.pending_in_bounds(), StateField::Pending)
 }
 
 // ---------------------------------------------------------------------------

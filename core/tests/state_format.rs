@@ -359,15 +359,15 @@ fn lean_with_block() -> (LeanMoments, Vec<u8>) {
 fn pending_block_bytes_and_rules() {
     let (a, b) = lean_with_block();
     assert_eq!(a.count(), 20);
-    // Payload offset 10: pending pairs (u16); 96: four sets of five sums
-    // (each set holds 3 of the 12 pairs, so none is all zero); 256: zero.
+    // Payload offset 10: pending pairs (u16); 96: four sets of six values
+    // [Σd, Σe, Σd², Σd·e, Σe², 0] (each set holds 3 of the 12 pairs, at
+    // distinct x, so Σd² > 0).
     assert_eq!(u16::from_le_bytes([b[16 + 10], b[16 + 11]]), 12);
     for set in 0..4 {
-        let at = 16 + 96 + 40 * set;
-        let sq = |k: usize| f64::from_le_bytes(b[at + 8 * k..at + 8 * k + 8].try_into().unwrap());
-        assert!(sq(2) > 0.0 && sq(4) >= 0.0, "set {set}: Σd², Σe²");
+        let at = 16 + 96 + 48 * set;
+        let v = |k: usize| f64::from_le_bytes(b[at + 8 * k..at + 8 * k + 8].try_into().unwrap());
+        assert!(v(2) > 0.0 && v(4) >= 0.0 && v(5) == 0.0, "set {set}");
     }
-    assert!(b[16 + 256..16 + 288].iter().all(|&v| v == 0));
     assert_eq!(state::peek(&b).unwrap().count, 20);
     let back = LeanMoments::restore(&b).unwrap();
     assert_eq!(back, a);
@@ -388,18 +388,18 @@ fn pending_block_bytes_and_rules() {
     );
     // An empty block must be all zero.
     assert_eq!(field_of(with(10, &0u16.to_le_bytes())), StateField::Pending);
-    // A sum not finite; unused slot (area values 20 to 23) not zero.
+    // A sum not finite; the unused value of the last set not zero.
     assert_eq!(
         field_of(with(96, &f64::NAN.to_le_bytes())),
         StateField::Pending
     );
     assert_eq!(
-        field_of(with(272, &1.0f64.to_le_bytes())),
+        field_of(with(96 + 48 * 3 + 40, &1.0f64.to_le_bytes())),
         StateField::Pending
     );
-    // A negative Σd² in the second position set (area value 2 + 5 + 2).
+    // A negative Σd² in the second position set.
     assert_eq!(
-        field_of(with(168, &(-1.0f64).to_le_bytes())),
+        field_of(with(96 + 48 + 16, &(-1.0f64).to_le_bytes())),
         StateField::Pending
     );
     // Sums a block of 12 pairs cannot reach (Σd² and Σd of the first set).
