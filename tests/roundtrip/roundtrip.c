@@ -2,8 +2,9 @@
  * C step of the cross-door round trip (see tests/roundtrip/src/main.rs for
  * the whole sequence): restores the states Rust saved after part A into
  * caller storage, checks that saving them again gives the same bytes, adds
- * part B (weighted pushes of its first half, its second half merged in from
- * a fresh accumulator), applies forgetting and saves c_<kind>.state.
+ * part B (weighted pushes of its first third, its second third merged in
+ * from a fresh accumulator, forgetting, then plain pushes of its last
+ * third) and saves c_<kind>.state.
  *
  * Usage: roundtrip <dir>   (the folder plumbfit-roundtrip wrote)
  */
@@ -79,7 +80,7 @@ static void load_part_b(void) {
 static void line_step(const char *kind, uint32_t tier, void *storage, size_t storage_len) {
     static uint8_t a[PF_STATE_MAX_LEN], again[PF_STATE_MAX_LEN], out[PF_STATE_MAX_LEN];
     char name[64];
-    size_t alen, wlen = 0, h = bn / 2, i, want_len = 0;
+    size_t alen, wlen = 0, h1 = bn / 3, h2 = 2 * bn / 3, i, want_len = 0;
     pf_line *acc = NULL, *other = NULL;
     pf_state_info info;
     snprintf(name, sizeof name, "a_%s.state", kind);
@@ -97,12 +98,13 @@ static void line_step(const char *kind, uint32_t tier, void *storage, size_t sto
         fprintf(stderr, "%s: the C save of the restored state differs from the Rust bytes\n", kind);
         failures++;
     }
-    for (i = 0; i < h; i++) CHECK_OK(pf_line_push_weighted(acc, bx[i], by[i], bw[i]));
+    for (i = 0; i < h1; i++) CHECK_OK(pf_line_push_weighted(acc, bx[i], by[i], bw[i]));
     CHECK_OK(pf_line_new(tier, &other));
-    CHECK_OK(pf_line_extend(other, bx + h, by + h, bn - h));
+    CHECK_OK(pf_line_extend(other, bx + h1, by + h1, h2 - h1));
     CHECK_OK(pf_line_merge(acc, other));
     CHECK_OK(pf_line_free(other));
     CHECK_OK(pf_line_forget(acc, LAMBDA));
+    for (i = h2; i < bn; i++) CHECK_OK(pf_line_push(acc, bx[i], by[i]));
     CHECK_OK(pf_line_save(acc, out, sizeof out, &wlen));
     snprintf(name, sizeof name, "c_%s.state", kind);
     write_file(name, out, wlen);
@@ -113,7 +115,7 @@ static void model_step(void) {
     static uint8_t a[PF_STATE_MAX_LEN], again[PF_STATE_MAX_LEN], out[PF_STATE_MAX_LEN];
     static uint64_t storage[1024];
     static double rows[3 * MAXN];
-    size_t alen, wlen = 0, h = bn / 2, i, p = 0;
+    size_t alen, wlen = 0, h1 = bn / 3, h2 = 2 * bn / 3, i, p = 0;
     pf_model *m = NULL, *other = NULL;
     pf_layout lay;
     alen = read_file("a_model.state", a, sizeof a);
@@ -131,17 +133,18 @@ static void model_step(void) {
         fprintf(stderr, "model: the C save of the restored state differs from the Rust bytes\n");
         failures++;
     }
-    for (i = 0; i < h; i++) CHECK_OK(pf_model_push_powers(m, bx[i], by[i], bw[i]));
-    for (i = h; i < bn; i++) {
-        rows[3 * (i - h)] = 1.0;
-        rows[3 * (i - h) + 1] = bx[i];
-        rows[3 * (i - h) + 2] = bx[i] * bx[i];
+    for (i = 0; i < h1; i++) CHECK_OK(pf_model_push_powers(m, bx[i], by[i], bw[i]));
+    for (i = h1; i < bn; i++) {
+        rows[3 * (i - h1)] = 1.0;
+        rows[3 * (i - h1) + 1] = bx[i];
+        rows[3 * (i - h1) + 2] = bx[i] * bx[i];
     }
     CHECK_OK(pf_model_new(3, &other));
-    CHECK_OK(pf_model_extend(other, rows, 3 * (bn - h), by + h, bn - h));
+    CHECK_OK(pf_model_extend(other, rows, 3 * (h2 - h1), by + h1, h2 - h1));
     CHECK_OK(pf_model_merge(m, other));
     CHECK_OK(pf_model_free(other));
     CHECK_OK(pf_model_forget(m, LAMBDA));
+    for (i = h2; i < bn; i++) CHECK_OK(pf_model_push(m, rows + 3 * (i - h1), 3, by[i]));
     CHECK_OK(pf_model_save(m, out, sizeof out, &wlen));
     write_file("c_model.state", out, wlen);
     printf("C step model: restored %zu bytes (same bytes saved back), added %zu rows\n", alen, bn);

@@ -1,7 +1,8 @@
 """Python step of the cross-door round trip (sequence in
 tests/roundtrip/src/main.rs): restores the states the C program saved,
-checks that saving them again gives the same bytes, merges in part C built
-through the Python API, and compares the final bytes and fit with the
+checks that saving them again gives the same bytes, pushes the first pairs
+of part C one at a time and merges in the rest built through the Python API
+(more pairs than the door handles with the GIL held), and compares the final bytes and fit with the
 reference the Rust door computed for the same three parts and calls.
 
 Every comparison is exact: bytes with ==, floats by their bit patterns (the
@@ -21,6 +22,9 @@ import numpy as np
 
 import plumbfit
 
+# Pairs of part C pushed one at a time (as in tests/roundtrip/src/main.rs).
+PY_PUSHES = 7
+
 
 def bits(v: float) -> int:
     return int(struct.unpack("<Q", struct.pack("<d", v))[0])
@@ -34,6 +38,9 @@ def main(folder: str) -> int:
         ref[key] = int(hexbits, 16)
     cx = np.fromfile(d / "part_c_x.f64", dtype="<f8")
     cy = np.fromfile(d / "part_c_y.f64", dtype="<f8")
+    if len(cx) - PY_PUSHES <= plumbfit.GIL_RELEASE_PAIRS:
+        print("part C does not reach the GIL-release path", file=sys.stderr)
+        return 1
     checked = 0
     failed: list[str] = []
 
@@ -56,8 +63,10 @@ def main(folder: str) -> int:
         acc = plumbfit.LineAccumulator.from_bytes(blob)
         assert acc.tier == tier
         same_bytes(f"{tier}: Python save of the C state", acc.to_bytes(), blob)
+        for i in range(PY_PUSHES):
+            acc.push(float(cx[i]), float(cy[i]))
         part = plumbfit.LineAccumulator(tier)
-        part.extend(cx, cy)
+        part.extend(cx[PY_PUSHES:], cy[PY_PUSHES:])
         acc.merge(part)
         same_bytes(f"{tier}: final state", acc.to_bytes(), (d / f"ref_{tier}.state").read_bytes())
         fit = acc.fit()
@@ -69,8 +78,11 @@ def main(folder: str) -> int:
     m = plumbfit.ModelAccumulator.from_bytes(blob)
     assert m.params == 3
     same_bytes("model: Python save of the C state", m.to_bytes(), blob)
+    rows = np.column_stack([np.ones_like(cx), cx, cx * cx])
+    for i in range(PY_PUSHES):
+        m.push(rows[i], float(cy[i]))
     part_m = plumbfit.ModelAccumulator(3)
-    part_m.extend(np.column_stack([np.ones_like(cx), cx, cx * cx]), cy)
+    part_m.extend(rows[PY_PUSHES:], cy[PY_PUSHES:])
     m.merge(part_m)
     same_bytes("model: final state", m.to_bytes(), (d / "ref_model.state").read_bytes())
     mf = m.fit()
