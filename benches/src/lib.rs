@@ -183,6 +183,15 @@ pub fn ceiling_rate(xs: &[f64], ys: &[f64], budget_s: f64) -> f64 {
     })
 }
 
+/// Table cell for a ratio to the ceiling: three decimals, or `-` when there
+/// is no ratio or it is not a finite number (a ceiling that was not
+/// measured must never print as NaN).
+pub fn ratio_cell(ratio: Option<f64>) -> String {
+    ratio
+        .filter(|v| v.is_finite())
+        .map_or("-".to_string(), |v| format!("{v:.3}"))
+}
+
 /// The 1-, 5- and 15-minute load averages (Linux), for the report header.
 pub fn load_average() -> Option<String> {
     let s = std::fs::read_to_string("/proc/loadavg").ok()?;
@@ -202,6 +211,14 @@ mod tests {
         let plain: f64 = xs.iter().chain(&ys).sum();
         assert_eq!(read_ceiling(&xs, &ys), plain);
         assert_eq!(ceiling_lanes(&xs, &ys), plain);
+    }
+
+    #[test]
+    fn ratio_cells_never_show_nan() {
+        assert_eq!(ratio_cell(Some(0.4567)), "0.457");
+        for bad in [None, Some(f64::NAN), Some(f64::INFINITY), Some(-f64::NAN)] {
+            assert_eq!(ratio_cell(bad), "-");
+        }
     }
 
     #[test]

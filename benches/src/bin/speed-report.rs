@@ -9,7 +9,8 @@
 use plumbfit::model::ModelMoments;
 use plumbfit::{FullMoments, LeanMoments, PairMoments, Tier};
 use plumbfit_benches::{
-    interleaved_best, load_average, model_rows, offset_pairs, rate, read_ceiling,
+    ceiling_rate, interleaved_best, load_average, model_rows, offset_pairs, rate, ratio_cell,
+    read_ceiling,
 };
 use std::hint::black_box;
 
@@ -154,14 +155,21 @@ fn main() {
 
     // Model accumulator, default (full-accuracy) mode. Ratio: f64 values
     // read per second (p + 1 per row) against the ceiling's (2 per pair)
-    // at 10⁶ pairs.
-    let ceil_1m = ceiling_at
-        .iter()
-        .find(|(n, _)| *n == 1_000_000)
-        .or(ceiling_at.last())
-        .map(|&(_, c)| c)
-        .unwrap_or(f64::NAN);
+    // at 10⁶ pairs (`quick`: the largest measured size), measured here when
+    // the extend section did not run.
     let model_n = if quick { 20_000 } else { 1_000_000 };
+    let ceil_n = if quick { 100_000 } else { 1_000_000 };
+    let ceil_model = if on("model") {
+        match ceiling_at.iter().find(|(n, _)| *n == ceil_n) {
+            Some(&(_, c)) => c,
+            None => {
+                let (xs, ys) = offset_pairs(ceil_n, 7);
+                ceiling_rate(&xs, &ys, budget)
+            }
+        }
+    } else {
+        0.0
+    };
     for p in [2usize, 4, 8, 12] {
         if !on("model") {
             break;
@@ -179,7 +187,7 @@ fn main() {
             n: model_n,
             rate: r,
             unit: "rows/s",
-            ratio: Some(r * (p as f64 + 1.0) / (2.0 * ceil_1m)),
+            ratio: Some(r * (p as f64 + 1.0) / (2.0 * ceil_model)),
         });
     }
 
@@ -203,7 +211,7 @@ fn main() {
         "", "", "", "", ""
     );
     for r in &rows {
-        let ratio = r.ratio.map_or("-".to_string(), |v| format!("{v:.3}"));
+        let ratio = ratio_cell(r.ratio);
         println!(
             "| {:<34} | {:>10} | {:>12.1} | {:<8} | {:>8} |",
             r.what,
@@ -213,11 +221,17 @@ fn main() {
             ratio
         );
     }
+    if on("model") {
+        println!(
+            "model ratios: f64 values read per second against the read ceiling at n = {ceil_n} ({:.1} M pairs/s)",
+            ceil_model / 1e6
+        );
+    }
     println!();
     let find = |what: &str, n: usize| {
         rows.iter()
             .find(|r| r.what == what && r.n == n)
-            .map(|r| (r.rate, r.ratio.unwrap_or(f64::NAN)))
+            .and_then(|r| Some((r.rate, r.ratio.filter(|v| v.is_finite())?)))
     };
     let big = *sizes.last().unwrap_or(&0);
     let pn = if quick { 100_000 } else { 1_000_000 };
