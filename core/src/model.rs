@@ -203,14 +203,20 @@ pub enum ModelError {
         /// Rows accumulated.
         have: u64,
     },
-    /// The state would overflow (values too large in magnitude).
-    #[error("overflow in the accumulator state")]
+    /// The state, or a fit result, would overflow (values too large in
+    /// magnitude, or weights so small that their inverses overflow).
+    #[error("overflow in the accumulator state or its fit")]
     Overflow,
+    /// A block of rows with no rows (the same condition and code as the
+    /// line accumulator's empty input).
+    #[error("input is empty")]
+    EmptyInput,
 }
 
 impl ModelError {
     /// Stable numeric code: 20–29 for caller errors, 120–129 for numerical
-    /// conditions. Numbers are never reused.
+    /// conditions, and the shared code 4 for empty input. Numbers are never
+    /// reused.
     pub const fn code(&self) -> u16 {
         match self {
             ModelError::NonFinite { .. } => 20,
@@ -225,6 +231,7 @@ impl ModelError {
             ModelError::RankDeficient { .. } => 120,
             ModelError::TooFewRows { .. } => 121,
             ModelError::Overflow => 122,
+            ModelError::EmptyInput => 4,
         }
     }
 }
@@ -910,6 +917,9 @@ fn state_extend(
 ) -> Result<(), ModelError> {
     let n = ys.len();
     check_block_lengths(n, rows.len(), p, ws)?;
+    if n == 0 {
+        return Err(ModelError::EmptyInput);
+    }
     // Validate the whole block before touching the state.
     for r in 0..n {
         let w = ws.map_or(1.0, |w| w[r]);
@@ -927,6 +937,9 @@ fn state_extend_powers(
 ) -> Result<(), ModelError> {
     let n = ys.len();
     check_block_lengths(n, xs.len(), 1, ws)?;
+    if n == 0 {
+        return Err(ModelError::EmptyInput);
+    }
     for r in 0..n {
         let w = ws.map_or(1.0, |w| w[r]);
         check_row(&xs[r..r + 1], ys[r], w, r)?;
@@ -1277,6 +1290,7 @@ macro_rules! accumulator_methods {
         ///
         /// # Errors
         /// [`ModelError::DimensionMismatch`] if `xs.len() != ys.len()`;
+        /// [`ModelError::EmptyInput`] for an empty block;
         /// [`ModelError::NonFinite`] naming the first bad row (column 0 for
         /// x, 1 for y); [`ModelError::Overflow`]. On error the state is
         /// unchanged.
@@ -1309,6 +1323,7 @@ macro_rules! accumulator_methods {
         ///
         /// # Errors
         /// [`ModelError::DimensionMismatch`] if `rows.len() != ys.len() · p`;
+        /// [`ModelError::EmptyInput`] for an empty block (`ys` empty);
         /// [`ModelError::NonFinite`] naming the first bad row (index within
         /// the block) and column; [`ModelError::Overflow`]. On error the
         /// state is unchanged.
@@ -1356,12 +1371,17 @@ macro_rules! accumulator_methods {
             state_merge(&mut self.buf, self.p, other)
         }
 
-        /// Solves the accumulated least-squares problem.
+        /// Solves the accumulated least-squares problem. Every number in
+        /// the result is finite (except the documented `+∞` F statistic of
+        /// an exact fit).
         ///
         /// # Errors
         /// [`ModelError::TooFewRows`] with fewer than `p + 1` rows;
         /// [`ModelError::RankDeficient`] naming the first column that is
-        /// numerically a combination of earlier ones.
+        /// numerically a combination of earlier ones;
+        /// [`ModelError::Overflow`] when a result would not be finite
+        /// (weights forgotten into the subnormal range, sums of squares
+        /// near the top of the double range).
         pub fn fit(&self, opts: &ModelFitOptions) -> Result<ModelFit, ModelError> {
             fit_state(&self.buf[..storage_len(self.p)], self.p, opts)
         }
@@ -1725,7 +1745,7 @@ fn fit_state(s: &[f64], p: usize, opts: &ModelFitOptions) -> Result<ModelFit, Mo
     }
     let condition_estimate = libm::sqrt(p as f64 * inv_f2);
 
-    Ok(ModelFit {
+    let fit = ModelFit {
         coefficients: beta.iter().map(|b| b.to_f64()).collect(),
         std_errors,
         covariance,
@@ -1752,7 +1772,14 @@ fn fit_state(s: &[f64], p: usize, opts: &ModelFitOptions) -> Result<ModelFit, Mo
         d,
         rbar,
         s2,
-    })
+    };
+    if !fit.is_finite() {
+        // Extreme states (weights forgotten into the subnormal range, a
+        // residual sum of squares near the top of the double range) can
+        // overflow a derived quantity even though the state is finite.
+        return Err(ModelError::Overflow);
+    }
+    Ok(fit)
 }
 
 #[cfg(feature = "std")]
@@ -1780,6 +1807,37 @@ impl ModelFit {
     /// Number of coefficients.
     pub fn params(&self) -> usize {
         self.p
+    }
+
+    /// Every reported number and the kept double-double parts are finite
+    /// (the F statistic may be `+∞` for an exact fit, as documented).
+    fn is_finite(&self) -> bool {
+        let fin = |v: &f64| v.is_finite();
+        let dd = |v: &Dd| v.hi.is_finite() && v.lo.is_finite();
+        self.coefficients.iter().all(fin)
+            && self.std_errors.iter().all(fin)
+            && self.covariance.iter().all(fin)
+            && self.beta_dd.iter().all(dd)
+            && dd(&self.s2)
+            && [
+                self.weight_sum,
+                self.effective_rows,
+                self.sse,
+                self.ss_model,
+                self.ss_total,
+                self.residual_sd,
+                self.ms_resid,
+                self.condition_estimate,
+            ]
+            .iter()
+            .all(fin)
+            && [self.r_squared, self.adj_r_squared, self.ms_model]
+                .iter()
+                .flatten()
+                .all(fin)
+            && self.f_stat.map_or(true, |f| {
+                f.is_finite() || (self.exact_fit && f == f64::INFINITY)
+            })
     }
 
     fn check_row(&self, row: &[f64]) -> Result<(), ModelError> {
@@ -1958,6 +2016,7 @@ impl ModelFit {
 /// # Errors
 /// [`ModelError::InvalidParamCount`] if `degree + 1 > MAX_PARAMS`;
 /// [`ModelError::DimensionMismatch`] if the slices differ in length;
+/// [`ModelError::EmptyInput`] for empty slices;
 /// [`ModelError::NonFinite`]; the errors of [`ModelMoments::fit`].
 ///
 /// ```

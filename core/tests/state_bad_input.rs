@@ -313,13 +313,13 @@ fn model_bad_input_matrix() {
 }
 
 #[test]
-fn model_empty_block_is_a_no_op() {
-    // The model accumulator treats an empty block as nothing to add (the
-    // line accumulator refuses it with code 4); either way nothing changes.
+fn model_empty_block_is_refused() {
+    // Like the line accumulator, the model refuses an empty block with
+    // code 4 (DEVELOPERS.md: empty input) and changes nothing.
     let mut m = ModelMoments::new(2).unwrap();
     m.push_row(&[1.0, 2.0], 3.0).unwrap();
     let before = m.save_to_vec();
-    assert!(m.extend_rows(&[], &[]).is_ok());
+    assert_eq!(m.extend_rows(&[], &[]).unwrap_err().code(), 4);
     assert_eq!(m.save_to_vec(), before);
 }
 

@@ -593,7 +593,8 @@ pub unsafe extern "C" fn pf_model_push_powers(
 ///
 /// Errors: `PF_ERR_NULL_POINTER` (any pointer, even with lengths 0),
 /// `PF_ERR_MISALIGNED`, `PF_ERR_BAD_ARGUMENT` (length too large),
-/// `PF_ERR_MODEL_DIMENSION` (`rows_len` != n * p), `PF_ERR_MODEL_NON_FINITE`,
+/// `PF_ERR_MODEL_DIMENSION` (`rows_len` != n * p), `PF_ERR_EMPTY_INPUT`
+/// (n == 0, as for `pf_line_extend`), `PF_ERR_MODEL_NON_FINITE`,
 /// `PF_ERR_MODEL_OVERFLOW`, handle errors. Needs exclusive access.
 ///
 /// # Safety
@@ -714,7 +715,8 @@ unsafe fn copy_out(values: &[f64], out: *mut f64, cap: usize) -> pf_status {
 /// Errors: `PF_ERR_NULL_POINTER` (any pointer), `PF_ERR_BAD_ARGUMENT`
 /// (unknown intercept value), `PF_ERR_BUFFER_TOO_SMALL`,
 /// `PF_ERR_TOO_FEW_ROWS` (fewer than p + 1 rows), `PF_ERR_RANK_DEFICIENT`,
-/// handle errors. Read-only.
+/// `PF_ERR_MODEL_OVERFLOW` (a result would not be finite), handle errors.
+/// Read-only.
 ///
 /// # Safety
 /// `m` NULL or a live handle; `info` NULL or valid for one

@@ -95,7 +95,8 @@ pub const PF_ERR_STATE_CHECKSUM: pf_status = 56;
 pub const PF_ERR_STATE_INVALID_FIELD: pf_status = 57;
 /// State bytes: the output buffer is too small for the saved state.
 pub const PF_ERR_STATE_BUFFER_TOO_SMALL: pf_status = 58;
-/// State bytes: model storage too small for the saved state.
+/// State bytes: storage too small for the saved state (a model's values,
+/// or more levels than a `pf_levels` store holds).
 pub const PF_ERR_STATE_STORAGE_TOO_SMALL: pf_status = 59;
 /// A required pointer argument is NULL.
 pub const PF_ERR_NULL_POINTER: pf_status = 60;
@@ -119,7 +120,8 @@ pub const PF_ERR_IN_PLACE_HANDLE: pf_status = 67;
 pub const PF_ERR_RANK_DEFICIENT: pf_status = 120;
 /// Model: too few rows for the result (a fit needs p + 1).
 pub const PF_ERR_TOO_FEW_ROWS: pf_status = 121;
-/// Model: the state would overflow (values too large in magnitude).
+/// Model: the state or a fit result would overflow (values too large in
+/// magnitude, or weights so small that their inverses overflow).
 pub const PF_ERR_MODEL_OVERFLOW: pf_status = 122;
 /// Calibration: the slope is exactly zero; nothing can be inverted.
 pub const PF_ERR_ZERO_SLOPE: pf_status = 130;
@@ -189,7 +191,7 @@ fn message(status: u32) -> &'static str {
         PF_ERR_MODEL_INVALID_STORAGE => "model: storage holds no valid state\0",
         PF_ERR_RANK_DEFICIENT => "model: rank deficient design\0",
         PF_ERR_TOO_FEW_ROWS => "model: too few rows\0",
-        PF_ERR_MODEL_OVERFLOW => "model: state overflow\0",
+        PF_ERR_MODEL_OVERFLOW => "model: state or fit result overflow\0",
         PF_ERR_COEFFICIENT_COUNT => "polynomial needs 2 to 9 coefficients\0",
         PF_ERR_INVALID_RANGE => "calibrated range must satisfy lower < upper\0",
         PF_ERR_INVALID_UNCERTAINTY => "uncertainty must be finite and >= 0\0",

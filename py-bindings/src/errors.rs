@@ -305,6 +305,7 @@ impl From<ModelError> for Failure {
             }
             ModelError::TooFewRows { .. } => Failure::new(Kind::TooFewPoints, code, msg, None),
             ModelError::Overflow => Failure::new(Kind::StateOverflow, code, msg, None),
+            ModelError::EmptyInput => Failure::new(Kind::EmptyInput, code, msg, None),
             _ => by_range(code, msg),
         }
     }

@@ -161,6 +161,10 @@ impl ModelAccumulator {
                 }));
             }
         }
+        if xs.is_empty() {
+            // Same refusal as `extend` and the line accumulator (code 4).
+            return Err(raise(ModelError::EmptyInput));
+        }
         // Work on a copy so that a refused pair leaves the state unchanged.
         let mut t = self.inner.clone();
         let mut work = || -> Result<(), Failure> {
