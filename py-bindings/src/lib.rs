@@ -45,6 +45,8 @@ fn _native(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_function(wrap_pyfunction!(persist::peek_state, m)?)?;
     m.add_function(wrap_pyfunction!(arrays::_conversion_count, m)?)?;
     m.add("__version__", env!("CARGO_PKG_VERSION"))?;
+    // Lets the benchmarks refuse to report figures for an unoptimised build.
+    m.add("_debug_build", cfg!(debug_assertions))?;
     m.add("GIL_RELEASE_PAIRS", line::GIL_RELEASE_PAIRS)?;
     Ok(())
 }

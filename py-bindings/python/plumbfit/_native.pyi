@@ -39,6 +39,7 @@ __all__ = [
     "TooFewPointsError",
     "__version__",
     "_conversion_count",
+    "_debug_build",
     "anderson_darling",
     "fit_polynomial",
     "load_state",
@@ -48,6 +49,7 @@ __all__ = [
 
 __version__: Final[str]
 GIL_RELEASE_PAIRS: Final[int]
+_debug_build: Final[bool]
 
 _Vector = npt.NDArray[Any] | Sequence[float]
 _Tier = Literal["lean", "full"]
