@@ -21,6 +21,8 @@
 //! | [`FullMoments`](crate::FullMoments) | [`PairMoments::save_into`] | [`PairMoments::restore`] | [`FULL_LEN`] |
 //! | [`ModelMoments`] | [`ModelMoments::save_into`] | [`ModelMoments::restore`] | [`model_len`]`(p)` |
 //! | [`ModelCore`] | [`ModelCore::save_into`] | [`ModelCore::restore_in`] (caller storage) | [`model_len`]`(p)` |
+//! | [`LevelSet`](crate::calib::LevelSet) | [`LevelSet::save_into`](crate::calib::LevelSet::save_into) | [`LevelSet::restore`](crate::calib::LevelSet::restore) | [`levels_len`]`(c)` |
+//! | [`FixedLevels`](crate::calib::FixedLevels) | [`FixedLevels::save_into`](crate::calib::FixedLevels::save_into) | [`FixedLevels::restore`](crate::calib::FixedLevels::restore) (no heap) | [`levels_len`]`(c)` |
 //!
 //! [`peek`] tells which kind, version and `p` a blob holds after checking
 //! its header, length and checksum; [`declared_len`] reads only the
@@ -45,6 +47,9 @@ use crate::{Full, Lean};
 use alloc::vec;
 use alloc::vec::Vec;
 use core::fmt;
+
+mod levels;
+pub use levels::{levels_len, LEVEL_RECORD_LEN, MAX_LEVELS};
 
 /// First four bytes of every state blob. The first byte has its high bit
 /// set so that a channel that strips the eighth bit is detected.
@@ -100,6 +105,9 @@ pub enum StateKind {
     LineFull,
     /// [`ModelMoments`] or [`ModelCore`] (same bytes).
     Model,
+    /// A replicate-level store, [`LevelSet`](crate::calib::LevelSet) or
+    /// [`FixedLevels`](crate::calib::FixedLevels) (same bytes).
+    Levels,
 }
 
 impl StateKind {
@@ -109,6 +117,7 @@ impl StateKind {
             StateKind::LineLean => 1,
             StateKind::LineFull => 2,
             StateKind::Model => 3,
+            StateKind::Levels => 4,
         }
     }
 
@@ -118,16 +127,19 @@ impl StateKind {
             1 => Some(StateKind::LineLean),
             2 => Some(StateKind::LineFull),
             3 => Some(StateKind::Model),
+            4 => Some(StateKind::Levels),
             _ => None,
         }
     }
 
-    /// Short lowercase name (`"line-lean"`, `"line-full"`, `"model"`).
+    /// Short lowercase name (`"line-lean"`, `"line-full"`, `"model"`,
+    /// `"levels"`).
     pub const fn name(self) -> &'static str {
         match self {
             StateKind::LineLean => "line-lean",
             StateKind::LineFull => "line-full",
             StateKind::Model => "model",
+            StateKind::Levels => "levels",
         }
     }
 }
@@ -197,6 +209,17 @@ pub enum StateField {
     ModelResidual,
     /// The model's unit triangle `R̄`.
     ModelTriangle,
+    /// A level's nominal `x`: finite, `0.0` not `−0.0`, strictly increasing.
+    LevelX,
+    /// A level's reading count (≥ 1; the total fits in `u64`).
+    LevelCount,
+    /// A level's weight sum (finite, > 0).
+    LevelWeightSum,
+    /// A level's mean of `y` (finite).
+    LevelMean,
+    /// A level's second moment about its mean (finite, ≥ 0, zero for a
+    /// single reading).
+    LevelM2,
 }
 
 impl StateField {
@@ -229,6 +252,11 @@ impl StateField {
             StateField::ModelRotated => "model_rotated",
             StateField::ModelResidual => "model_residual",
             StateField::ModelTriangle => "model_triangle",
+            StateField::LevelX => "level_x",
+            StateField::LevelCount => "level_count",
+            StateField::LevelWeightSum => "level_weight_sum",
+            StateField::LevelMean => "level_mean_y",
+            StateField::LevelM2 => "level_m2",
         }
     }
 }
@@ -311,12 +339,13 @@ pub enum StateError {
         /// Bytes given.
         have: usize,
     },
-    /// Caller storage for a restored model is too short.
-    #[error("model storage too small: {needed} values needed, {have} given")]
+    /// Caller storage for a restored state is too short: a model's
+    /// `f64` values, or the capacity of a fixed level store.
+    #[error("storage too small: {needed} needed, {have} given")]
     StorageTooSmall {
-        /// `f64` values required ([`crate::model::storage_len`]).
+        /// `f64` values ([`crate::model::storage_len`]) or levels required.
         needed: usize,
-        /// `f64` values given.
+        /// `f64` values or levels the storage holds.
         have: usize,
     },
 }
@@ -385,10 +414,11 @@ pub struct StateInfo {
     /// The format version of the blob, [`OLDEST_READ_VERSION`] to
     /// [`FORMAT_VERSION`].
     pub version: u16,
-    /// Number of model coefficients `p`; 0 for line states.
+    /// Number of model coefficients `p`, or of levels in a level state;
+    /// 0 for line states.
     pub params: u16,
-    /// Pairs or rows accumulated, as stored (not yet validated; saturated
-    /// to the `u64` range).
+    /// Pairs, rows or readings accumulated, as stored (not yet validated;
+    /// saturated to the `u64` range).
     pub count: u64,
     /// Total encoded length in bytes.
     pub len: usize,
@@ -443,6 +473,10 @@ fn read_header(b: &[u8]) -> Result<Header, StateError> {
         });
     }
     let kind = StateKind::from_code(b[6]).ok_or(StateError::UnknownKind { kind: b[6] })?;
+    if kind == StateKind::Levels && version < levels::LEVELS_SINCE {
+        // The kind did not exist in version 1.
+        return Err(StateError::UnknownKind { kind: b[6] });
+    }
     if b[7] != 0 {
         return Err(field(StateField::Reserved));
     }
@@ -463,6 +497,14 @@ fn read_header(b: &[u8]) -> Result<Header, StateError> {
                 return Err(field(StateField::Params));
             }
             model::storage_len(p as usize) * 8
+        }
+        // `p` is the level count, capped so the blob stays within
+        // MAX_ENCODED_LEN.
+        StateKind::Levels => {
+            if p as usize > MAX_LEVELS {
+                return Err(field(StateField::Params));
+            }
+            p as usize * LEVEL_RECORD_LEN
         }
     };
     if u16_at(b, 10) != 0 {
@@ -546,6 +588,7 @@ pub fn peek(bytes: &[u8]) -> Result<StateInfo, StateError> {
             .saturating_add(payload[9] as u64)
             .saturating_add(u16_at(payload, 10) as u64),
         StateKind::Model => f64_at(payload, 16) as u64,
+        StateKind::Levels => levels::peek_count(payload),
     };
     Ok(StateInfo {
         kind: h.kind,

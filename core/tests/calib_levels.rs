@@ -49,8 +49,8 @@ fn push_extend_merge_and_fixed_agree() {
     p2.extend(a, ya).unwrap();
     let mut p3 = LevelSet::new();
     p3.extend(b, yb).unwrap();
-    p1.merge(&p2);
-    p1.merge(&p3);
+    p1.merge(&p2).unwrap();
+    p1.merge(&p3).unwrap();
     let mut fixed = FixedLevels::<8>::new();
     fixed.extend(&xs, &ys).unwrap();
     let (ss, df) = pushed.pure_error();

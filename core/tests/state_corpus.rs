@@ -52,6 +52,11 @@ fn ops_corpus_replays() {
     replay("state_ops", harness::check_ops);
 }
 
+#[test]
+fn levels_decode_corpus_replays() {
+    replay("levels_decode", harness::check_levels_decode);
+}
+
 /// Fixed-seed random inputs (xorshift), more in release builds.
 fn sweep(check: fn(&[u8]), seed: u64) {
     let n = if cfg!(debug_assertions) { 300 } else { 3000 };
@@ -80,6 +85,11 @@ fn decode_random_sweep() {
 #[test]
 fn ops_random_sweep() {
     sweep(harness::check_ops, 0x5EED_0002_0BAD_CAFE);
+}
+
+#[test]
+fn levels_decode_random_sweep() {
+    sweep(harness::check_levels_decode, 0x5EED_0003_1E7E_150D);
 }
 
 /// Writes valid blobs of every kind as fuzz seeds into
@@ -124,6 +134,16 @@ fn write_seed_blobs() {
             m.push_powers(*x, *y, 1.0).unwrap();
         }
         blobs.push(m.save_to_vec());
+    }
+    for c in [0usize, 1, 2, 8, 32, plumbfit::state::MAX_LEVELS] {
+        let mut lv = plumbfit::calib::LevelSet::new();
+        for (i, y) in ys.iter().enumerate() {
+            if c > 0 {
+                lv.push_weighted((i % c) as f64 + 0.5, *y, 1.0 + (i % 3) as f64)
+                    .unwrap();
+            }
+        }
+        blobs.push(lv.save_to_vec().unwrap());
     }
     for (i, b) in blobs.iter().enumerate() {
         std::fs::write(dir.join(format!("seed-{i:03}")), b).unwrap();

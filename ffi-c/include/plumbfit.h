@@ -217,6 +217,23 @@
 #define PF_STATE_HEADER_LEN 16
 
 /*
+ Bytes of a saved `pf_levels` store per level; a store with `c` levels
+ saves `PF_STATE_LEVELS_BASE_LEN + c * PF_STATE_LEVEL_RECORD_LEN` bytes.
+ */
+#define PF_STATE_LEVEL_RECORD_LEN 40
+
+/*
+ Bytes of a saved `pf_levels` store with no level (header and checksum).
+ */
+#define PF_STATE_LEVELS_BASE_LEN 20
+
+/*
+ Most levels any saved level state holds (from any door); a state with
+ more than `PF_LEVELS_CAPACITY` levels does not fit a `pf_levels` store.
+ */
+#define PF_STATE_MAX_LEVELS 62
+
+/*
  `pf_state_info.kind`: a lean line accumulator.
  */
 #define PF_STATE_KIND_LINE_LEAN 1
@@ -230,6 +247,11 @@
  `pf_state_info.kind`: a model accumulator.
  */
 #define PF_STATE_KIND_MODEL 3
+
+/*
+ `pf_state_info.kind`: a replicate-level store (`pf_levels`).
+ */
+#define PF_STATE_KIND_LEVELS 4
 
 /*
  Major version of the library (from Cargo.toml; checked at compile time).
@@ -1067,11 +1089,12 @@ typedef struct {
      */
     uint32_t version;
     /*
-     Number of model coefficients (0 for line states).
+     Number of model coefficients, or of levels in a level state (0 for
+     line states).
      */
     uint32_t params;
     /*
-     Pairs or rows accumulated.
+     Pairs, rows or readings accumulated.
      */
     uint64_t count;
     /*
@@ -1311,7 +1334,8 @@ typedef struct {
 #define PF_ERR_STATE_BUFFER_TOO_SMALL 58
 
 /*
- State bytes: model storage too small for the saved state.
+ State bytes: storage too small for the saved state (a model's values,
+ or more levels than a `pf_levels` store holds).
  */
 #define PF_ERR_STATE_STORAGE_TOO_SMALL 59
 
@@ -1368,7 +1392,8 @@ typedef struct {
 #define PF_ERR_TOO_FEW_ROWS 121
 
 /*
- Model: the state would overflow (values too large in magnitude).
+ Model: the state or a fit result would overflow (values too large in
+ magnitude, or weights so small that their inverses overflow).
  */
 #define PF_ERR_MODEL_OVERFLOW 122
 
@@ -1684,6 +1709,52 @@ pf_status pf_levels_count(const pf_levels *l, uint64_t *count_out, size_t *level
  or valid for one `pf_lack_of_fit`.
  */
 pf_status pf_levels_lack_of_fit(const pf_levels *l, const pf_fitted_line *fit, pf_lack_of_fit *out);
+
+/*
+ Stores the number of bytes `pf_levels_save` writes for `l` in `*out`:
+ `PF_STATE_LEVELS_BASE_LEN + levels * PF_STATE_LEVEL_RECORD_LEN` (at
+ most `PF_STATE_MAX_LEN`).
+
+ Errors: `PF_ERR_NULL_POINTER`, handle errors. Read-only.
+
+ # Safety
+ `l` NULL or a live handle; `out` NULL or valid for one `size_t`.
+ */
+pf_status pf_levels_state_len(const pf_levels *l, size_t *out);
+
+/*
+ Saves the level store `l` into `out` (capacity `cap` bytes) and stores
+ the number of bytes written in `*written`. No heap is used. The bytes
+ are the same as from every other door for the same readings.
+
+ Errors: `PF_ERR_NULL_POINTER` (any pointer, even with `cap` 0),
+ `PF_ERR_STATE_BUFFER_TOO_SMALL` (query `pf_levels_state_len`;
+ `PF_STATE_MAX_LEN` always suffices), handle errors. Nothing is written
+ on error. Read-only.
+
+ # Safety
+ `l` NULL or a live handle; `out` NULL or valid for `cap` bytes;
+ `written` NULL or valid for one `size_t`.
+ */
+pf_status pf_levels_save(const pf_levels *l, uint8_t *out, size_t cap, size_t *written);
+
+/*
+ Replaces the contents of `l` by the level state saved in `bytes` (`len`
+ bytes, exactly one saved level state). Everything is checked first
+ (format, version, checksum, sorted unique levels, finite sums); on
+ error the store is unchanged. Works for heap and caller-storage
+ handles.
+
+ Errors: `PF_ERR_NULL_POINTER` (even with `len` 0),
+ `PF_ERR_STATE_WRONG_KIND` (an accumulator state),
+ `PF_ERR_STATE_STORAGE_TOO_SMALL` (more than `PF_LEVELS_CAPACITY`
+ levels, e.g. saved by the Python door), every other `PF_ERR_STATE_*`,
+ handle errors. Needs exclusive access.
+
+ # Safety
+ `l` NULL or a live handle; `bytes` NULL or valid for `len` bytes.
+ */
+pf_status pf_levels_restore(pf_levels *l, const uint8_t *bytes, size_t len);
 
 /*
  Residual checks of the line from a full-tier accumulator alone, stored
@@ -2247,7 +2318,8 @@ pf_status pf_model_push_powers(pf_model *m, double x, double y, double w);
 
  Errors: `PF_ERR_NULL_POINTER` (any pointer, even with lengths 0),
  `PF_ERR_MISALIGNED`, `PF_ERR_BAD_ARGUMENT` (length too large),
- `PF_ERR_MODEL_DIMENSION` (`rows_len` != n * p), `PF_ERR_MODEL_NON_FINITE`,
+ `PF_ERR_MODEL_DIMENSION` (`rows_len` != n * p), `PF_ERR_EMPTY_INPUT`
+ (n == 0, as for `pf_line_extend`), `PF_ERR_MODEL_NON_FINITE`,
  `PF_ERR_MODEL_OVERFLOW`, handle errors. Needs exclusive access.
 
  # Safety
@@ -2311,7 +2383,8 @@ pf_status pf_model_merge(pf_model *dst, const pf_model *src);
  Errors: `PF_ERR_NULL_POINTER` (any pointer), `PF_ERR_BAD_ARGUMENT`
  (unknown intercept value), `PF_ERR_BUFFER_TOO_SMALL`,
  `PF_ERR_TOO_FEW_ROWS` (fewer than p + 1 rows), `PF_ERR_RANK_DEFICIENT`,
- handle errors. Read-only.
+ `PF_ERR_MODEL_OVERFLOW` (a result would not be finite), handle errors.
+ Read-only.
 
  # Safety
  `m` NULL or a live handle; `info` NULL or valid for one

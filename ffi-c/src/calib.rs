@@ -756,3 +756,95 @@ pub unsafe extern "C" fn pf_levels_lack_of_fit(
         })
     }
 }
+
+/// Stores the number of bytes `pf_levels_save` writes for `l` in `*out`:
+/// `PF_STATE_LEVELS_BASE_LEN + levels * PF_STATE_LEVEL_RECORD_LEN` (at
+/// most `PF_STATE_MAX_LEN`).
+///
+/// Errors: `PF_ERR_NULL_POINTER`, handle errors. Read-only.
+///
+/// # Safety
+/// `l` NULL or a live handle; `out` NULL or valid for one `size_t`.
+#[no_mangle]
+pub unsafe extern "C" fn pf_levels_state_len(l: *const pf_levels, out: *mut usize) -> pf_status {
+    if out.is_null() {
+        return PF_ERR_NULL_POINTER;
+    }
+    // SAFETY: forwarded contract; `out` checked.
+    unsafe {
+        levels_ref(l, |s| {
+            write_out(out, s.encoded_len());
+            PF_OK
+        })
+    }
+}
+
+/// Saves the level store `l` into `out` (capacity `cap` bytes) and stores
+/// the number of bytes written in `*written`. No heap is used. The bytes
+/// are the same as from every other door for the same readings.
+///
+/// Errors: `PF_ERR_NULL_POINTER` (any pointer, even with `cap` 0),
+/// `PF_ERR_STATE_BUFFER_TOO_SMALL` (query `pf_levels_state_len`;
+/// `PF_STATE_MAX_LEN` always suffices), handle errors. Nothing is written
+/// on error. Read-only.
+///
+/// # Safety
+/// `l` NULL or a live handle; `out` NULL or valid for `cap` bytes;
+/// `written` NULL or valid for one `size_t`.
+#[no_mangle]
+pub unsafe extern "C" fn pf_levels_save(
+    l: *const pf_levels,
+    out: *mut u8,
+    cap: usize,
+    written: *mut usize,
+) -> pf_status {
+    if out.is_null() || written.is_null() {
+        return PF_ERR_NULL_POINTER;
+    }
+    // SAFETY: forwarded contract; outputs checked.
+    unsafe {
+        levels_ref(l, |s| {
+            crate::state::save_with(out, cap, written, s.encoded_len(), |b| s.save_into(b))
+        })
+    }
+}
+
+/// Replaces the contents of `l` by the level state saved in `bytes` (`len`
+/// bytes, exactly one saved level state). Everything is checked first
+/// (format, version, checksum, sorted unique levels, finite sums); on
+/// error the store is unchanged. Works for heap and caller-storage
+/// handles.
+///
+/// Errors: `PF_ERR_NULL_POINTER` (even with `len` 0),
+/// `PF_ERR_STATE_WRONG_KIND` (an accumulator state),
+/// `PF_ERR_STATE_STORAGE_TOO_SMALL` (more than `PF_LEVELS_CAPACITY`
+/// levels, e.g. saved by the Python door), every other `PF_ERR_STATE_*`,
+/// handle errors. Needs exclusive access.
+///
+/// # Safety
+/// `l` NULL or a live handle; `bytes` NULL or valid for `len` bytes.
+#[no_mangle]
+pub unsafe extern "C" fn pf_levels_restore(
+    l: *mut pf_levels,
+    bytes: *const u8,
+    len: usize,
+) -> pf_status {
+    if l.is_null() {
+        return PF_ERR_NULL_POINTER;
+    }
+    // SAFETY: forwarded contract.
+    let b = match unsafe { boundary::slice_in_bytes(bytes, len) } {
+        Ok(b) => b,
+        Err(e) => return e,
+    };
+    // SAFETY: forwarded contract; the tag proves the object type.
+    unsafe {
+        guard_mut(l, TAG_LEVELS, |_, p| match Levels::restore(b) {
+            Ok(v) => {
+                (*p.cast::<LevelsObj>()).levels = v;
+                PF_OK
+            }
+            Err(e) => crate::state::state_err(e),
+        })
+    }
+}

@@ -19,11 +19,22 @@ pub const PF_STATE_MAX_LEN: usize = 2532;
 /// Bytes of the fixed header at the start of every saved state (enough for
 /// `pf_state_declared_len`).
 pub const PF_STATE_HEADER_LEN: usize = 16;
+/// Bytes of a saved `pf_levels` store per level; a store with `c` levels
+/// saves `PF_STATE_LEVELS_BASE_LEN + c * PF_STATE_LEVEL_RECORD_LEN` bytes.
+pub const PF_STATE_LEVEL_RECORD_LEN: usize = 40;
+/// Bytes of a saved `pf_levels` store with no level (header and checksum).
+pub const PF_STATE_LEVELS_BASE_LEN: usize = 20;
+/// Most levels any saved level state holds (from any door); a state with
+/// more than `PF_LEVELS_CAPACITY` levels does not fit a `pf_levels` store.
+pub const PF_STATE_MAX_LEVELS: usize = 62;
 const _: () = assert!(
     PF_STATE_LINE_LEAN_LEN == state::LEAN_LEN
         && PF_STATE_LINE_FULL_LEN == state::FULL_LEN
         && PF_STATE_MAX_LEN == state::MAX_ENCODED_LEN
         && PF_STATE_HEADER_LEN == state::HEADER_LEN
+        && PF_STATE_LEVEL_RECORD_LEN == state::LEVEL_RECORD_LEN
+        && PF_STATE_LEVELS_BASE_LEN == state::levels_len(0)
+        && PF_STATE_MAX_LEVELS == state::MAX_LEVELS
 );
 
 /// `pf_state_info.kind`: a lean line accumulator.
@@ -32,6 +43,8 @@ pub const PF_STATE_KIND_LINE_LEAN: u32 = 1;
 pub const PF_STATE_KIND_LINE_FULL: u32 = 2;
 /// `pf_state_info.kind`: a model accumulator.
 pub const PF_STATE_KIND_MODEL: u32 = 3;
+/// `pf_state_info.kind`: a replicate-level store (`pf_levels`).
+pub const PF_STATE_KIND_LEVELS: u32 = 4;
 
 /// What a saved state holds, from `pf_state_peek`.
 ///
@@ -44,15 +57,16 @@ pub struct pf_state_info {
     pub kind: u32,
     /// Format version of the bytes.
     pub version: u32,
-    /// Number of model coefficients (0 for line states).
+    /// Number of model coefficients, or of levels in a level state (0 for
+    /// line states).
     pub params: u32,
-    /// Pairs or rows accumulated.
+    /// Pairs, rows or readings accumulated.
     pub count: u64,
     /// Total length of the state in bytes.
     pub len: usize,
 }
 
-fn state_err(e: StateError) -> pf_status {
+pub(crate) fn state_err(e: StateError) -> pf_status {
     from_code(e.code())
 }
 
@@ -61,6 +75,7 @@ fn kind_code(k: StateKind) -> u32 {
         StateKind::LineLean => PF_STATE_KIND_LINE_LEAN,
         StateKind::LineFull => PF_STATE_KIND_LINE_FULL,
         StateKind::Model => PF_STATE_KIND_MODEL,
+        StateKind::Levels => PF_STATE_KIND_LEVELS,
         // A kind added to the core later: report it by its header byte.
         _ => k.code() as u32,
     }
@@ -70,7 +85,7 @@ fn kind_code(k: StateKind) -> u32 {
 ///
 /// # Safety
 /// `out` non-NULL and valid for `cap` bytes; `written` non-NULL, writable.
-unsafe fn save_with(
+pub(crate) unsafe fn save_with(
     out: *mut u8,
     cap: usize,
     written: *mut usize,

@@ -8,7 +8,7 @@ use plumbfit::calib::{
     self, CalibError, FiellerSet, InverseEstimate, LackOfFit, LevelSet, Reading, SigmaSource,
 };
 use pyo3::prelude::*;
-use pyo3::types::PyDict;
+use pyo3::types::{PyBytes, PyDict};
 
 impl From<CalibError> for Failure {
     fn from(e: CalibError) -> Self {
@@ -342,9 +342,11 @@ impl ReplicateLevels {
         .map_err(raise)
     }
 
-    /// Folds another store's readings into this one.
-    fn merge(&mut self, other: &ReplicateLevels) {
-        self.inner.merge(&other.inner);
+    /// Folds another store's readings into this one. Raises
+    /// `StateOverflowError` (leaving the store unchanged) if a level's sums
+    /// would overflow.
+    fn merge(&mut self, other: &ReplicateLevels) -> PyResult<()> {
+        self.inner.merge(&other.inner).map_err(raise)
     }
 
     /// Levels as a dict of NumPy arrays: `x, count, weight_sum, mean_y, m2`.
@@ -382,6 +384,34 @@ impl ReplicateLevels {
             .lack_of_fit_poly(c.as_slice()?)
             .map(lack_of_fit)
             .map_err(raise)
+    }
+
+    /// The store in the persisted state format (the same bytes the C and
+    /// Rust doors write for the same readings). Raises `StateFormatError`
+    /// for a store of more than 62 levels, the format's cap.
+    fn to_bytes<'py>(&self, py: Python<'py>) -> PyResult<Bound<'py, PyBytes>> {
+        let v = self.inner.save_to_vec().map_err(raise)?;
+        Ok(crate::persist::bytes(py, &v))
+    }
+
+    /// Rebuilds a store from `to_bytes()` output or any other door's saved
+    /// level state. Raises `StateFormatError` for bytes that are not a
+    /// valid level state.
+    #[staticmethod]
+    pub(crate) fn from_bytes(data: &[u8]) -> PyResult<Self> {
+        Ok(ReplicateLevels {
+            inner: LevelSet::restore(data).map_err(raise)?,
+        })
+    }
+
+    /// Pickles through the persisted state format.
+    #[allow(clippy::type_complexity)]
+    fn __reduce__<'py>(
+        slf: &Bound<'py, Self>,
+    ) -> PyResult<(Bound<'py, PyAny>, (Bound<'py, PyBytes>,))> {
+        let py = slf.py();
+        let ctor = slf.get_type().getattr("from_bytes")?;
+        Ok((ctor, (slf.borrow().to_bytes(py)?,)))
     }
 
     fn __repr__(&self) -> String {

@@ -2,6 +2,7 @@
 //! `docs/state-format.md`): `to_bytes`/`from_bytes`, pickling, and
 //! `load_state`/`peek_state` for blobs whose kind is not known up front.
 
+use crate::calib::ReplicateLevels;
 use crate::errors::raise;
 use crate::line::{Acc, LineAccumulator};
 use crate::model::ModelAccumulator;
@@ -35,12 +36,13 @@ pub(crate) fn model_from_bytes(data: &[u8]) -> PyResult<ModelMoments> {
     ModelMoments::restore(data).map_err(raise)
 }
 
-/// Rebuilds whichever accumulator a state blob holds
-/// (`LineAccumulator` or `ModelAccumulator`).
+/// Rebuilds whichever accumulator or store a state blob holds
+/// (`LineAccumulator`, `ModelAccumulator` or `ReplicateLevels`).
 #[pyfunction]
 pub fn load_state(py: Python<'_>, data: &[u8]) -> PyResult<Py<PyAny>> {
     let info = state::peek(data).map_err(raise)?;
     Ok(match info.kind {
+        StateKind::Levels => Py::new(py, ReplicateLevels::from_bytes(data)?)?.into_any(),
         StateKind::Model => Py::new(
             py,
             ModelAccumulator {
@@ -59,8 +61,8 @@ pub fn load_state(py: Python<'_>, data: &[u8]) -> PyResult<Py<PyAny>> {
 }
 
 /// Checks a blob's header, length and checksum and says what it holds:
-/// `{"kind": "line-lean" | "line-full" | "model", "version", "params",
-/// "count", "length"}`.
+/// `{"kind": "line-lean" | "line-full" | "model" | "levels", "version",
+/// "params" (coefficients, or levels), "count", "length"}`.
 #[pyfunction]
 pub fn peek_state<'py>(py: Python<'py>, data: &[u8]) -> PyResult<Bound<'py, PyDict>> {
     let info = state::peek(data).map_err(raise)?;

@@ -497,6 +497,19 @@ fn state_scenarios(o: &mut Out, d: &[[f64; 3]]) {
     words("state.lean", &lean.save_to_vec());
     words("state.full", &full.save_to_vec());
     words("state.model", &model.save_to_vec());
+    // Replicate levels (8 nominal x values, weighted readings; invented):
+    // the heap store and the fixed store give the same bytes.
+    let mut fixed = FixedLevels::<32>::new();
+    let mut set = pf_core::calib::LevelSet::new();
+    for (i, p) in d.iter().take(100).enumerate() {
+        let x = 1000.0 + 10.0 * (i % 8) as f64;
+        fixed.push_weighted(x, p[1], p[2]).unwrap();
+        set.push_weighted(x, p[1], p[2]).unwrap();
+    }
+    let mut b = vec![0u8; fixed.encoded_len()];
+    fixed.save_into(&mut b).unwrap();
+    assert_eq!(set.save_to_vec().unwrap(), b);
+    words("state.levels", &b);
 }
 
 fn main() {

@@ -743,6 +743,113 @@ static void emit_words(const char *name, const uint8_t *b, size_t len) {
 
 static uint8_t state_buf[PF_STATE_MAX_LEN];
 
+/* CRC-32/ISO-HDLC, bit by bit (docs/state-format.md, "Checksum"), to forge
+   blobs independently of the library. */
+static uint32_t crc32_bits(const uint8_t *b, size_t n) {
+    uint32_t c = 0xFFFFFFFFu;
+    size_t i;
+    int k;
+    for (i = 0; i < n; i++) {
+        c ^= b[i];
+        for (k = 0; k < 8; k++) c = (c & 1u) ? 0xEDB88320u ^ (c >> 1) : c >> 1;
+    }
+    return c ^ 0xFFFFFFFFu;
+}
+
+static void put_le(uint8_t *b, uint64_t v, int bytes) {
+    int i;
+    for (i = 0; i < bytes; i++) b[i] = (uint8_t)(v >> (8 * i));
+}
+
+static uint64_t dbits(double v) {
+    uint64_t b;
+    memcpy(&b, &v, sizeof b);
+    return b;
+}
+
+/* A level state with `c` levels x = 0, 1, ..., one unit reading of y = 1
+   each, built byte by byte from the format tables; returns its length. */
+static size_t forge_levels(uint8_t *b, unsigned c) {
+    size_t len = PF_STATE_LEVELS_BASE_LEN + c * PF_STATE_LEVEL_RECORD_LEN, at = 16;
+    unsigned i;
+    memset(b, 0, len);
+    b[0] = 0xC5;
+    b[1] = 'P';
+    b[2] = 'F';
+    b[3] = 'S';
+    memcpy(b + 4, state_buf + 4, 2); /* format version, from a saved state */
+    b[6] = PF_STATE_KIND_LEVELS;
+    put_le(b + 8, c, 2);
+    put_le(b + 12, c * PF_STATE_LEVEL_RECORD_LEN, 4);
+    for (i = 0; i < c; i++, at += PF_STATE_LEVEL_RECORD_LEN) {
+        put_le(b + at, dbits((double)i), 8);
+        put_le(b + at + 8, 1, 8);
+        put_le(b + at + 16, dbits(1.0), 8);
+        put_le(b + at + 24, dbits(1.0), 8);
+    }
+    put_le(b + len - 4, crc32_bits(b, len - 4), 4);
+    return len;
+}
+
+static void levels_state(const double *xs, const double *ys, const double *ws, size_t n) {
+    pf_levels *lv = NULL, *back = NULL;
+    static pf_levels_storage back_store;
+    static uint8_t forged[PF_STATE_MAX_LEN];
+    pf_state_info info;
+    size_t i, len = 0, need = 0, flen, lv_n = 0;
+    uint64_t count = 0;
+    uint8_t again[PF_STATE_MAX_LEN];
+    (void)xs;
+
+    CHECK_STATUS(pf_levels_new(&lv), PF_OK);
+    CHECK_STATUS(pf_levels_state_len(lv, &need), PF_OK);
+    CHECK(need == PF_STATE_LEVELS_BASE_LEN);
+    for (i = 0; i < 100 && i < n; i++) {
+        CHECK_STATUS(pf_levels_push_weighted(lv, 1000.0 + 10.0 * (double)(i % 8), ys[i], ws[i]),
+                     PF_OK);
+    }
+    CHECK_STATUS(pf_levels_state_len(lv, &need), PF_OK);
+    CHECK(need == PF_STATE_LEVELS_BASE_LEN + 8 * PF_STATE_LEVEL_RECORD_LEN);
+    CHECK_STATUS(pf_levels_save(lv, state_buf, need - 1, &len), PF_ERR_STATE_BUFFER_TOO_SMALL);
+    CHECK_STATUS(pf_levels_save(lv, state_buf, sizeof state_buf, &len), PF_OK);
+    CHECK(len == need);
+    emit_words("state.levels", state_buf, len);
+    CHECK_STATUS(pf_state_peek(state_buf, len, &info), PF_OK);
+    CHECK(info.kind == PF_STATE_KIND_LEVELS && info.params == 8 && info.count == 100 &&
+          info.len == len);
+
+    /* Round trip into caller storage: the same bytes again. */
+    CHECK_STATUS(pf_levels_init_in(&back_store, sizeof back_store, &back), PF_OK);
+    CHECK_STATUS(pf_levels_restore(back, state_buf, len), PF_OK);
+    CHECK_STATUS(pf_levels_save(back, again, sizeof again, &need), PF_OK);
+    CHECK(need == len && memcmp(again, state_buf, len) == 0);
+
+    /* Corrupted, truncated, wrong-kind and oversized states are refused
+       and leave the store as it was. */
+    CHECK_STATUS(pf_levels_push(back, 5.0, 1.0), PF_OK);
+    state_buf[40] ^= 0x10;
+    CHECK_STATUS(pf_levels_restore(back, state_buf, len), PF_ERR_STATE_CHECKSUM);
+    state_buf[40] ^= 0x10;
+    CHECK_STATUS(pf_levels_restore(back, state_buf, len - 1), PF_ERR_STATE_TRUNCATED);
+    CHECK_STATUS(pf_levels_restore(back, state_buf, 0), PF_ERR_STATE_TRUNCATED);
+    flen = forge_levels(forged, PF_LEVELS_CAPACITY + 1);
+    CHECK_STATUS(pf_state_peek(forged, flen, &info), PF_OK);
+    CHECK(info.kind == PF_STATE_KIND_LEVELS && info.params == PF_LEVELS_CAPACITY + 1);
+    CHECK_STATUS(pf_levels_restore(back, forged, flen), PF_ERR_STATE_STORAGE_TOO_SMALL);
+    flen = forge_levels(forged, 3);
+    memset(forged + 16 + PF_STATE_LEVEL_RECORD_LEN, 0, 8); /* level 1 at x = 0: a duplicate */
+    put_le(forged + flen - 4, crc32_bits(forged, flen - 4), 4);
+    CHECK_STATUS(pf_levels_restore(back, forged, flen), PF_ERR_STATE_INVALID_FIELD);
+    CHECK_STATUS(pf_levels_count(back, &count, &lv_n), PF_OK);
+    CHECK(count == 101 && lv_n == 9);
+    /* A forged valid state restores with its three levels. */
+    flen = forge_levels(forged, 3);
+    CHECK_STATUS(pf_levels_restore(back, forged, flen), PF_OK);
+    CHECK_STATUS(pf_levels_count(back, &count, &lv_n), PF_OK);
+    CHECK(count == 3 && lv_n == 3);
+    CHECK_STATUS(pf_levels_free(lv), PF_OK);
+}
+
 static void state_scenarios(const double *xs, const double *ys, const double *ws, size_t n) {
     pf_line *lean = NULL, *full = NULL, *back = NULL;
     pf_model *model = NULL, *mback = NULL;
@@ -819,6 +926,7 @@ static void state_scenarios(const double *xs, const double *ys, const double *ws
     CHECK_STATUS(pf_model_free(model), PF_OK);
     CHECK_STATUS(pf_line_free(full), PF_OK);
     CHECK_STATUS(pf_line_free(lean), PF_OK);
+    levels_state(xs, ys, ws, n);
 }
 
 static double from_bits(uint64_t b) {

@@ -239,6 +239,7 @@ int main(void) {
     {
         static uint8_t sb[PF_STATE_MAX_LEN];
         pf_model *sm = NULL;
+        pf_levels *slv = NULL;
         pf_state_info si;
         size_t sl = 7, sw = 7;
         EXPECT(pf_model_new(2, &sm), PF_OK);
@@ -271,7 +272,23 @@ int main(void) {
         EXPECT(pf_state_declared_len(NULL, PF_STATE_HEADER_LEN, &sl), NP);
         EXPECT(pf_state_declared_len(sb, PF_STATE_HEADER_LEN, NULL), NP);
         EXPECT(pf_state_declared_len(sb, PF_STATE_HEADER_LEN - 1, &sl), PF_ERR_STATE_TRUNCATED);
+        EXPECT(pf_levels_new(&slv), PF_OK);
+        EXPECT(pf_levels_state_len(NULL, &sl), NP);
+        EXPECT(pf_levels_state_len(slv, NULL), NP);
+        EXPECT(pf_levels_state_len((const pf_levels *)(const void *)sm, &sl), PF_ERR_BAD_HANDLE);
+        EXPECT(pf_levels_save(NULL, sb, sizeof sb, &sw), NP);
+        EXPECT(pf_levels_save(slv, NULL, sizeof sb, &sw), NP);
+        EXPECT(pf_levels_save(slv, NULL, 0, &sw), NP);
+        EXPECT(pf_levels_save(slv, sb, sizeof sb, NULL), NP);
+        EXPECT(pf_levels_save(slv, sb, PF_STATE_LEVELS_BASE_LEN - 1, &sw),
+               PF_ERR_STATE_BUFFER_TOO_SMALL);
+        EXPECT(pf_levels_restore(NULL, sb, sizeof sb), NP);
+        EXPECT(pf_levels_restore(slv, NULL, sizeof sb), NP);
+        EXPECT(pf_levels_restore(slv, NULL, 0), NP);
+        EXPECT(pf_levels_restore(slv, sb, 0), PF_ERR_STATE_TRUNCATED);
+        EXPECT(pf_levels_restore(slv, sb, SIZE_MAX), PF_ERR_BAD_ARGUMENT);
         CHECK(sl == 7 && sw == 7);
+        EXPECT(pf_levels_free(slv), PF_OK);
         EXPECT(pf_model_free(sm), PF_OK);
     }
 
@@ -324,6 +341,8 @@ int main(void) {
         EXPECT(pf_model_extend(mm, NULL, 8, ys, 4), NP);
         EXPECT(pf_model_extend(mm, rows, 8, NULL, 4), NP);
         EXPECT(pf_model_extend(mm, NULL, 0, NULL, 0), NP);
+        EXPECT(pf_model_extend(mm, rows, 0, ys, 0), PF_ERR_EMPTY_INPUT);
+        EXPECT(pf_model_extend_weighted(mm, rows, 0, ys, ws, 0), PF_ERR_EMPTY_INPUT);
         EXPECT(pf_model_extend(mm, rows, 7, ys, 4), PF_ERR_MODEL_DIMENSION);
         EXPECT(pf_model_extend(mm, rows, SIZE_MAX, ys, 4), PF_ERR_BAD_ARGUMENT);
         EXPECT(pf_model_extend_weighted(NULL, rows, 8, ys, ws, 4), NP);

@@ -56,25 +56,58 @@ impl Level {
         }
     }
 
-    /// West (1979) weighted update.
-    fn add(&mut self, y: f64, w: f64) {
+    /// A level every update can produce: finite sums, a positive weight, a
+    /// non-negative spread (what a saved state must satisfy to restore).
+    fn is_sound(&self) -> bool {
+        self.weight_sum.is_finite()
+            && self.weight_sum > 0.0
+            && self.mean_y.is_finite()
+            && self.m2.is_finite()
+            && self.m2 >= 0.0
+    }
+
+    /// West (1979) weighted update; refuses (leaving the level as it was)
+    /// if a sum would overflow.
+    fn add(&mut self, y: f64, w: f64) -> Result<(), CalibError> {
         let wn = self.weight_sum + w;
         let d = y - self.mean_y;
         let mean = self.mean_y + d * (w / wn);
-        self.m2 += w * d * (y - mean);
-        self.mean_y = mean;
-        self.weight_sum = wn;
-        self.count += 1;
+        let t = Level {
+            x: self.x,
+            count: self.count.checked_add(1).ok_or(CalibError::Overflow)?,
+            weight_sum: wn,
+            mean_y: mean,
+            // The step is ≥ 0 in exact arithmetic; rounding of the new mean
+            // past `y` can flip its sign, so keep the sum non-negative.
+            m2: (self.m2 + w * d * (y - mean)).max(0.0),
+        };
+        if !t.is_sound() {
+            return Err(CalibError::Overflow);
+        }
+        *self = t;
+        Ok(())
     }
 
-    /// Chan–Golub–LeVeque merge of two summaries of the same level.
-    fn absorb(&mut self, o: &Level) {
+    /// Chan–Golub–LeVeque merge of two summaries of the same level;
+    /// refuses (leaving the level as it was) if a sum would overflow.
+    fn absorb(&mut self, o: &Level) -> Result<(), CalibError> {
         let wn = self.weight_sum + o.weight_sum;
         let d = o.mean_y - self.mean_y;
-        self.mean_y += d * (o.weight_sum / wn);
-        self.m2 += o.m2 + d * d * (self.weight_sum * o.weight_sum / wn);
-        self.weight_sum = wn;
-        self.count += o.count;
+        let t = Level {
+            x: self.x,
+            count: self
+                .count
+                .checked_add(o.count)
+                .ok_or(CalibError::Overflow)?,
+            weight_sum: wn,
+            mean_y: self.mean_y + d * (o.weight_sum / wn),
+            m2: self.m2 + o.m2 + d * d * (self.weight_sum * o.weight_sum / wn),
+        };
+        if !t.is_sound() {
+            return Err(CalibError::Overflow);
+        }
+        *self = t;
+        Ok(())
     }
 
     /// Standard deviation of the readings at the level, `√(m2/(count − 1))`
@@ -245,7 +278,9 @@ macro_rules! level_methods {
         ///
         /// # Errors
         /// [`CalibError::NonFinite`]; [`CalibError::LevelCapacity`] for a
-        /// full fixed store. The store is unchanged on error.
+        /// full fixed store; [`CalibError::Overflow`] if a level's sums or
+        /// the reading count would overflow. The store is unchanged on
+        /// error.
         pub fn push(&mut self, x: f64, y: f64) -> Result<(), CalibError> {
             self.push_weighted(x, y, 1.0)
         }
@@ -256,12 +291,13 @@ macro_rules! level_methods {
         /// As [`push`](Self::push), plus [`CalibError::InvalidWeight`].
         pub fn push_weighted(&mut self, x: f64, y: f64, w: f64) -> Result<(), CalibError> {
             check_pair(x, y, w, 0)?;
+            if self.count() == u64::MAX {
+                // The total reading count must stay representable.
+                return Err(CalibError::Overflow);
+            }
             let x = key(x);
             match find(self.levels(), x) {
-                Ok(i) => {
-                    self.levels_mut()[i].add(y, w);
-                    Ok(())
-                }
+                Ok(i) => self.levels_mut()[i].add(y, w),
                 Err(i) => self.insert_at(i, Level::first(x, y, w)),
             }
         }
@@ -303,7 +339,10 @@ macro_rules! level_methods {
 
         /// Number of readings.
         pub fn count(&self) -> u64 {
-            self.levels().iter().map(|l| l.count).sum()
+            // Updates, merges and restores keep the total within `u64`.
+            self.levels()
+                .iter()
+                .fold(0u64, |n, l| n.saturating_add(l.count))
         }
 
         /// Pure-error sum of squares and its degrees of freedom `n − c`.
@@ -401,22 +440,41 @@ impl LevelSet {
         ys: &[f64],
         ws: Option<&[f64]>,
     ) -> Result<(), CalibError> {
-        // Inputs are checked and insertion cannot fail: apply in place.
+        // Inputs are checked, but a sum may still overflow part-way: work
+        // on a copy and commit at the end.
+        let mut t = self.clone();
         for i in 0..xs.len() {
-            self.push_weighted(xs[i], ys[i], ws.map_or(1.0, |w| w[i]))?;
+            t.push_weighted(xs[i], ys[i], ws.map_or(1.0, |w| w[i]))?;
         }
+        *self = t;
         Ok(())
     }
 
     /// Merges another store's readings into this one (exact per-level
     /// merge).
-    pub fn merge(&mut self, other: &LevelSet) {
+    ///
+    /// # Errors
+    /// [`CalibError::Overflow`] if a level's sums or the reading count
+    /// would overflow; the store is then unchanged.
+    pub fn merge(&mut self, other: &LevelSet) -> Result<(), CalibError> {
+        other
+            .count()
+            .checked_add(self.count())
+            .ok_or(CalibError::Overflow)?;
+        let mut t = self.clone();
         for o in &other.levels {
-            match find(&self.levels, o.x) {
-                Ok(i) => self.levels[i].absorb(o),
-                Err(i) => self.levels.insert(i, *o),
+            match find(&t.levels, o.x) {
+                Ok(i) => t.levels[i].absorb(o)?,
+                Err(i) => t.levels.insert(i, *o),
             }
         }
+        *self = t;
+        Ok(())
+    }
+
+    /// A store holding `levels` (already checked: sorted, unique, sound).
+    pub(crate) fn from_checked(levels: Vec<Level>) -> Self {
+        LevelSet { levels }
     }
 
     level_methods!();
@@ -485,18 +543,37 @@ impl<const N: usize> FixedLevels<N> {
     /// Merges another store's readings into this one.
     ///
     /// # Errors
-    /// [`CalibError::LevelCapacity`] if the union has more than `N` levels;
-    /// the store is then unchanged.
+    /// [`CalibError::LevelCapacity`] if the union has more than `N` levels,
+    /// [`CalibError::Overflow`] if a level's sums or the reading count
+    /// would overflow; the store is then unchanged.
     pub fn merge<const M: usize>(&mut self, other: &FixedLevels<M>) -> Result<(), CalibError> {
+        other
+            .count()
+            .checked_add(self.count())
+            .ok_or(CalibError::Overflow)?;
         let mut t = *self;
         for o in other.as_slice() {
             match find(t.as_slice(), o.x) {
-                Ok(i) => t.levels[i].absorb(o),
+                Ok(i) => t.levels[i].absorb(o)?,
                 Err(i) => t.insert_at(i, *o)?,
             }
         }
         *self = t;
         Ok(())
+    }
+
+    /// A store holding `levels` (already checked: sorted, unique, sound);
+    /// `None` if there are more than `N`.
+    pub(crate) fn from_checked(levels: impl ExactSizeIterator<Item = Level>) -> Option<Self> {
+        if levels.len() > N {
+            return None;
+        }
+        let mut s = Self::new();
+        for (slot, l) in s.levels.iter_mut().zip(levels) {
+            *slot = l;
+            s.len += 1;
+        }
+        Some(s)
     }
 
     level_methods!();

@@ -9,14 +9,22 @@
 //!   accepted state survives further updates and queries.
 //! * [`check_ops`]: a sequence of push/extend/merge/forget/save/restore
 //!   decoded from the input, applied to the lean, full and model
-//!   accumulators. After every operation: a failed call left the state bit
-//!   for bit unchanged; a state reached by successful calls restores from
-//!   its own bytes bit for bit; successful queries return finite numbers.
+//!   accumulators and to both replicate-level stores. After every
+//!   operation: a failed call left the state bit for bit unchanged; a
+//!   state reached by successful calls restores from its own bytes bit for
+//!   bit; successful queries return finite numbers.
+//! * [`check_levels_decode`] (in `levels_checks.rs`): level-store blobs
+//!   through both store types, which must agree on what they accept.
 #![allow(dead_code, clippy::unwrap_used, clippy::expect_used, clippy::panic)]
 
 use plumbfit::model::{storage_len, ModelCore, ModelMoments, MAX_PARAMS};
 use plumbfit::state::{self, StateKind, StateTier, MAX_ENCODED_LEN};
 use plumbfit::{FullMoments, LeanMoments, PairMoments};
+
+#[path = "levels_checks.rs"]
+mod levels_checks;
+#[allow(unused_imports)] // used by the corpus replay and one fuzz target
+pub use levels_checks::check_levels_decode;
 
 /// Reads the fuzz input byte by byte; past the end it yields zeros.
 struct Src<'a> {
@@ -427,6 +435,8 @@ pub fn check_ops(data: &[u8]) {
     run_line::<plumbfit::Lean>(&ops);
     run_line::<plumbfit::Full>(&ops);
     run_model(p, &ops);
+    levels_checks::run_levels::<plumbfit::calib::LevelSet>(&ops);
+    levels_checks::run_levels::<plumbfit::calib::FixedLevels<8>>(&ops);
 }
 
 // ---------------------------------------------------------------------------
@@ -437,12 +447,16 @@ pub fn check_ops(data: &[u8]) {
 /// `p`, the rest fills the payload (zero-padded), and the CRC is computed.
 fn envelope(data: &[u8]) -> Vec<u8> {
     let sel = data.first().copied().unwrap_or(0);
-    let (kind, p, len) = match sel % 3 {
+    let (kind, p, len) = match sel % 4 {
         0 => (StateKind::LineLean, 0u16, state::LEAN_LEN),
         1 => (StateKind::LineFull, 0, state::FULL_LEN),
-        _ => {
-            let p = 1 + (sel as usize / 3) % MAX_PARAMS;
+        2 => {
+            let p = 1 + (sel as usize / 4) % MAX_PARAMS;
             (StateKind::Model, p as u16, state::model_len(p))
+        }
+        _ => {
+            let c = (sel as usize / 4) % (state::MAX_LEVELS + 1);
+            (StateKind::Levels, c as u16, state::levels_len(c))
         }
     };
     let mut b = vec![0u8; len];
@@ -518,6 +532,9 @@ fn decode_one(bytes: &[u8]) {
         accepted += 1;
         assert_eq!(a.save_to_vec(), want, "model encoding is not canonical");
         exercise_model(a);
+    }
+    if levels_checks::levels_decode_one(bytes) {
+        accepted += 1;
     }
     // Caller storage: written only on success.
     const SENTINEL: f64 = -7.25;
