@@ -7,7 +7,10 @@
 //! the one-pass result shows cancellation (the first pair is far from the
 //! chunk mean) it redoes the chunk in two passes while it is still in cache.
 //! The full kernel is always two passes: its fourth powers amplify any
-//! cancellation too much for a one-pass form.
+//! cancellation too much for a one-pass form. Its first pass (means, lag
+//! sums, extremes) streams the chunk from memory; the second (centred sums
+//! of orders 1–4) re-reads it from cache while the next chunk is
+//! prefetched, so memory and arithmetic overlap.
 
 /// Pairs per chunk: two `f64` arrays of this length fit in L1 with room.
 pub(crate) const CHUNK: usize = 512;
@@ -620,8 +623,15 @@ mod tests {
         if plumbfit_kernels::active().is_none() {
             return; // No SIMD path on this CPU: the scalar kernel is all there is.
         }
-        for (seed, n) in LENGTHS.iter().chain(&[LONG_CHUNK]).enumerate() {
-            let (xs, ys) = data(*n, seed as u64 + 1);
+        // Lengths around the 512-pair pieces of the second pass and a whole
+        // chunk, on top of every block-remainder class.
+        let more = [511, 513, 1024, LONG_CHUNK - 1, LONG_CHUNK];
+        for (seed, n) in LENGTHS.iter().chain(&more).enumerate() {
+            let (mut xs, ys) = data(*n, seed as u64 + 1);
+            if seed % 2 == 1 {
+                // Sorted x (a time base): large means far from the first pair.
+                xs.sort_by(f64::total_cmp);
+            }
             for b0 in [0.0, 2.5, -1e-3] {
                 let (xc, yc) = (xs[0], ys[0]);
                 let simd = plumbfit_kernels::shifted_sums(&xs, &ys, xc, yc, b0);
