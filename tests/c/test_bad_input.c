@@ -105,10 +105,12 @@ static pf_line *other_tier_lean, *other_tier_full; /* for tier mismatch */
 static pf_line *far_lean, *far_full;               /* 1e300-away states */
 static pf_model *model_p2, *far_model;
 static pf_levels *levels_full_store;               /* 32 levels, all used */
+static pf_levels *levels_far;                      /* a reading of 1e300 at x = 1 */
 static pf_fitted_line good_fit, origin_fit, weighted_fit, forgotten_fit;
 static uint8_t lean_bytes[PF_STATE_MAX_LEN], full_bytes[PF_STATE_MAX_LEN];
 static uint8_t model_bytes[PF_STATE_MAX_LEN], model2_bytes[PF_STATE_MAX_LEN];
-static size_t lean_len, full_len, model_len, model2_len;
+static uint8_t levels_bytes[PF_STATE_MAX_LEN];
+static size_t lean_len, full_len, model_len, model2_len, levels_len;
 static uint8_t scratch[PF_STATE_MAX_LEN + 8];
 
 /* Invented data: a gently curved line, with replicates at 5 levels. */
@@ -209,6 +211,7 @@ OP(l_restore_short, l_restore_mut(f, SIZE_MAX, 0, -1))
 OP(l_restore_long, l_restore_mut(f, SIZE_MAX, 0, +1))
 OP(l_restore_crc, l_restore_mut(f, 40, 0x5A, 0))
 OP(l_restore_model, pf_line_restore(f->line, model_bytes, model_len))
+OP(l_restore_levels, pf_line_restore(f->line, levels_bytes, levels_len))
 OP(l_restore_tier, l_restore_other_tier(f))
 /* Line: creation with a bad tier, re-initialisation over live storage. */
 OP(l_layout_tier2, pf_line_layout(2u, &sink.layout))
@@ -261,6 +264,9 @@ OP(m_pow_huge_y, pf_model_push_powers(f->model, 1.0, 1e300, 1.0))
 OP(m_ext_mismatch, pf_model_extend(f->model, rows_ok, 2 * P - 1, ys2, 2))
 OP(m_ext_mismatch_n, pf_model_extend(f->model, rows_ok, 2 * P, ys2, 3))
 OP(m_ext_rows_only, pf_model_extend(f->model, rows_ok, 2 * P, ys2, 0))
+OP(m_ext_empty, pf_model_extend(f->model, rows_ok, 0, ys2, 0))
+OP(m_extw_empty, pf_model_extend_weighted(f->model, rows_ok, 0, ys2, ONES, 0))
+OP(m_restore_levels, pf_model_restore(f->model, levels_bytes, levels_len))
 OP(m_ext_nan_row1, pf_model_extend(f->model, rows_nan, 2 * P, ys2, 2))
 OP(m_ext_inf_row1, pf_model_extend(f->model, rows_inf, 2 * P, ys2, 2))
 OP(m_ext_nan_y1, pf_model_extend(f->model, rows_ok, 2 * P, ys2_nan, 2))
@@ -337,6 +343,25 @@ OP(v_ext_over, pf_levels_extend(f->lv, new_levels, new_levels, 40))
 OP(v_merge_over, pf_levels_merge(f->lv, levels_full_store))
 OP(v_lof_mismatch, pf_levels_lack_of_fit(f->lv, &good_fit, &sink.lof))
 OP(v_init_small, pf_levels_init_in(&storage, 16, (pf_levels **)&sink.ptr))
+static const double HUGE_PAIR_X[2] = {1.0, 1.0}; /* a level every state has or can add */
+static const double HUGE_PAIR_Y[2] = {1e300, -1e300};
+OP(v_ext_huge, pf_levels_extend(f->lv, HUGE_PAIR_X, HUGE_PAIR_Y, 2))
+OP(v_push_huge, pf_levels_push(f->lv, 1.0, 1e300))
+OP(v_merge_far, pf_levels_merge(f->lv, levels_far))
+OP(v_restore_line, pf_levels_restore(f->lv, lean_bytes, lean_len))
+OP(v_restore_model, pf_levels_restore(f->lv, model_bytes, model_len))
+static pf_status v_restore_mut(struct fx *f, size_t at, uint8_t to, long dlen) {
+    memcpy(scratch, levels_bytes, levels_len);
+    scratch[levels_len] = 0;
+    if (at < levels_len) scratch[at] = to;
+    return pf_levels_restore(f->lv, scratch, (size_t)((long)levels_len + dlen));
+}
+OP(v_restore_magic, v_restore_mut(f, 2, 0x00, 0))
+OP(v_restore_version, v_restore_mut(f, 5, 0xFF, 0))
+OP(v_restore_empty, v_restore_mut(f, SIZE_MAX, 0, -(long)levels_len))
+OP(v_restore_short, v_restore_mut(f, SIZE_MAX, 0, -1))
+OP(v_restore_long, v_restore_mut(f, SIZE_MAX, 0, 1))
+OP(v_restore_crc, v_restore_mut(f, 20, 0x77, 0))
 
 struct hcase {
     const char *name;
@@ -395,6 +420,7 @@ static const struct hcase hcases[] = {
     {"restore one byte long", LINES, S_ALL, l_restore_long, PF_ERR_STATE_LENGTH},
     {"restore corrupted byte", LINES, S_ALL, l_restore_crc, PF_ERR_STATE_CHECKSUM},
     {"restore a model state", LINES, S_ALL, l_restore_model, PF_ERR_STATE_WRONG_KIND},
+    {"restore a level state", LINES, S_ALL, l_restore_levels, PF_ERR_STATE_WRONG_KIND},
     {"restore the other tier", LINES, S_ALL, l_restore_tier, PF_ERR_STATE_WRONG_KIND},
     {"layout tier 2", LINES, S_FEW, l_layout_tier2, PF_ERR_BAD_ARGUMENT},
     {"layout tier max", LINES, S_FEW, l_layout_tier_max, PF_ERR_BAD_ARGUMENT},
@@ -439,6 +465,8 @@ static const struct hcase hcases[] = {
     {"model extend rows_len != n*p", K_MODEL, S_ALL, m_ext_mismatch, PF_ERR_MODEL_DIMENSION},
     {"model extend n != rows/p", K_MODEL, S_ALL, m_ext_mismatch_n, PF_ERR_MODEL_DIMENSION},
     {"model extend rows with n 0", K_MODEL, S_ALL, m_ext_rows_only, PF_ERR_MODEL_DIMENSION},
+    {"model extend n 0", K_MODEL, S_ALL, m_ext_empty, PF_ERR_EMPTY_INPUT},
+    {"model extend_weighted n 0", K_MODEL, S_ALL, m_extw_empty, PF_ERR_EMPTY_INPUT},
     {"model extend nan in row 1", K_MODEL, S_ALL, m_ext_nan_row1, PF_ERR_MODEL_NON_FINITE},
     {"model extend inf in row 1", K_MODEL, S_ALL, m_ext_inf_row1, PF_ERR_MODEL_NON_FINITE},
     {"model extend nan y at 1", K_MODEL, S_ALL, m_ext_nan_y1, PF_ERR_MODEL_NON_FINITE},
@@ -456,6 +484,7 @@ static const struct hcase hcases[] = {
     {"model merge a state 1e300 away", K_MODEL, FRAMED, m_merge_far, PF_ERR_MODEL_OVERFLOW},
     {"model restore p 2 state", K_MODEL, S_ALL, m_restore_p2, PF_ERR_MODEL_DIMENSION},
     {"model restore a line state", K_MODEL, S_ALL, m_restore_line, PF_ERR_STATE_WRONG_KIND},
+    {"model restore a level state", K_MODEL, S_ALL, m_restore_levels, PF_ERR_STATE_WRONG_KIND},
     {"model restore bad magic", K_MODEL, S_ALL, m_restore_magic, PF_ERR_STATE_BAD_MAGIC},
     {"model restore unknown version", K_MODEL, S_ALL, m_restore_version, PF_ERR_STATE_VERSION},
     {"model restore 0 bytes", K_MODEL, S_ALL, m_restore_empty, PF_ERR_STATE_TRUNCATED},
@@ -506,6 +535,17 @@ static const struct hcase hcases[] = {
     {"levels push a 33rd level", K_LEVELS, S_AGED, v_push_new_level, PF_ERR_LEVEL_CAPACITY},
     {"levels merge past capacity", K_LEVELS, S_FEW | S_MANY | S_AGED, v_merge_over, PF_ERR_LEVEL_CAPACITY},
     {"levels lack_of_fit count mismatch", K_LEVELS, S_EMPTY | S_FEW | S_AGED, v_lof_mismatch, PF_ERR_COUNT_MISMATCH},
+    {"levels extend +-1e300 at one level", K_LEVELS, S_ALL, v_ext_huge, PF_ERR_OVERFLOW},
+    {"levels push 1e300 beside readings near 1", K_LEVELS, S_FEW | S_MANY, v_push_huge, PF_ERR_OVERFLOW},
+    {"levels merge a reading 1e300 away", K_LEVELS, S_FEW | S_MANY, v_merge_far, PF_ERR_OVERFLOW},
+    {"levels restore a line state", K_LEVELS, S_ALL, v_restore_line, PF_ERR_STATE_WRONG_KIND},
+    {"levels restore a model state", K_LEVELS, S_ALL, v_restore_model, PF_ERR_STATE_WRONG_KIND},
+    {"levels restore bad magic", K_LEVELS, S_ALL, v_restore_magic, PF_ERR_STATE_BAD_MAGIC},
+    {"levels restore unknown version", K_LEVELS, S_ALL, v_restore_version, PF_ERR_STATE_VERSION},
+    {"levels restore 0 bytes", K_LEVELS, S_ALL, v_restore_empty, PF_ERR_STATE_TRUNCATED},
+    {"levels restore one byte short", K_LEVELS, S_ALL, v_restore_short, PF_ERR_STATE_TRUNCATED},
+    {"levels restore one byte long", K_LEVELS, S_ALL, v_restore_long, PF_ERR_STATE_LENGTH},
+    {"levels restore corrupted byte", K_LEVELS, S_ALL, v_restore_crc, PF_ERR_STATE_CHECKSUM},
     {"levels init_in 16 bytes over live storage", K_LEVELS, S_ALL, v_init_small, PF_ERR_BUFFER_TOO_SMALL},
 };
 
@@ -576,7 +616,7 @@ static pf_status fill_levels(pf_levels *l, int state) {
     return s;
 }
 
-/* Saved bytes (or, for levels, the counts) that stand for the state. */
+/* The saved bytes, which stand for the whole state. */
 static size_t snapshot(int kind, const struct fx *f, uint8_t *out) {
     size_t w = 0;
     pf_status s;
@@ -585,12 +625,7 @@ static size_t snapshot(int kind, const struct fx *f, uint8_t *out) {
     } else if (kind == K_MODEL) {
         s = pf_model_save(f->model, out, PF_STATE_MAX_LEN, &w);
     } else {
-        uint64_t n = 0;
-        size_t nl = 0;
-        s = pf_levels_count(f->lv, &n, &nl);
-        memcpy(out, &n, sizeof n);
-        memcpy(out + sizeof n, &nl, sizeof nl);
-        w = sizeof n + sizeof nl;
+        s = pf_levels_save(f->lv, out, PF_STATE_MAX_LEN, &w);
     }
     if (s != PF_OK) {
         FAILF("snapshot failed: %u (%s)\n", (unsigned)s, pf_status_str(s));
@@ -999,6 +1034,7 @@ static void run_scale_checks(void) {
 int main(void) {
     pf_line *tmp = NULL;
     pf_model *mtmp = NULL;
+    pf_levels *levels_tmp = NULL;
     int i;
     unsigned nkinds = 0;
 
@@ -1077,6 +1113,12 @@ int main(void) {
     /* PF_LEVELS_CAPACITY levels none of the states use. */
     REQUIRE(pf_levels_new(&levels_full_store));
     for (i = 0; i < PF_LEVELS_CAPACITY; i++) REQUIRE(pf_levels_push(levels_full_store, 100.0 + i, 1.0));
+    REQUIRE(pf_levels_new(&levels_far));
+    REQUIRE(pf_levels_push(levels_far, 1.0, 1e300));
+    REQUIRE(pf_levels_new(&levels_tmp));
+    REQUIRE(pf_levels_extend(levels_tmp, XS, YS, 10));
+    REQUIRE(pf_levels_save(levels_tmp, levels_bytes, sizeof levels_bytes, &levels_len));
+    REQUIRE(pf_levels_free(levels_tmp));
     REQUIRE(pf_model_new(P, &far_model));
     for (i = 0; i < 5; i++) {
         double row[P] = {1.0, 0.0, 0.0};
@@ -1100,6 +1142,7 @@ int main(void) {
     pf_model_free(model_p2);
     pf_model_free(far_model);
     pf_levels_free(levels_full_store);
+    pf_levels_free(levels_far);
 
     printf("bad-input matrix: %d handle rows, %d stateless rows, %d calls\n",
            (int)(sizeof hcases / sizeof hcases[0]), (int)(sizeof scases / sizeof scases[0]),
