@@ -249,7 +249,15 @@ MODEL_CASES: list[Case] = [
     ("iadd p 2", ("model",), STATES, lambda m: m.__iadd__(m_p2), 22),
     ("merge far state", ("model",), FRAMED, lambda m: m.merge(m_far), 122),
     ("fit too few rows", ("model",), ("empty", "few"), lambda m: m.fit(), 121),
+    ("extend empty block", ("model",), STATES, lambda m: m.extend(np.ones((0, 3)), []), 4),
+    ("extend_powers empty", ("model",), STATES, lambda m: m.extend_powers([], []), 4),
 ]
+
+def _far_levels() -> plumbfit.ReplicateLevels:
+    lv = plumbfit.ReplicateLevels()
+    lv.push(1.0, 1e300)
+    return lv
+
 
 LEVEL_CASES: list[Case] = [
     ("push nan x", ("levels",), STATES, lambda v: v.push(NAN, 1.0), 1),
@@ -266,6 +274,13 @@ LEVEL_CASES: list[Case] = [
     ("extend inf x at 1", ("levels",), STATES, lambda v: v.extend(with_nan(XS, 1, INF), YS), 1),
     ("extend w 0 at 4", ("levels",), STATES,
      lambda v: v.extend(XS, YS, weights=with_nan(np.ones(10), 4, 0.0)), 2),
+    # A level holding readings of +-1e300: its spread overflows.
+    ("extend +-1e300 at one level", ("levels",), STATES,
+     lambda v: v.extend([1.0, 1.0], [1e300, -1e300]), 100),
+    ("push 1e300 beside readings near 1", ("levels",), ("few", "many"),
+     lambda v: v.push(1.0, 1e300), 100),
+    ("merge a reading 1e300 away", ("levels",), ("few", "many"),
+     lambda v: v.merge(_far_levels()), 100),
     ("lack_of_fit count mismatch", ("levels",), ("empty", "few", "aged"),
      lambda v: v.lack_of_fit(line_in("lean", "many").fit()), 35),
     ("lack_of_fit_polynomial no coefficient", ("levels",), STATES,
@@ -320,12 +335,19 @@ _wx.extend(XS, YS, weights=np.linspace(1.0, 2.0, 10))
 _wfit = _wx.fit()
 _rr = plumbfit.RetainedResiduals(XS, YS, _xfit)
 
+def _flip(b: bytes, i: int) -> bytes:
+    a = bytearray(b)
+    a[i] ^= 0x5A
+    return bytes(a)
+
+
 SCase = tuple[str, Callable[[], object], int]
 STATELESS: list[SCase] = [
     ("new tier medium", lambda: plumbfit.LineAccumulator("medium"), -1),  # type: ignore[arg-type]
     ("model p 0", lambda: plumbfit.ModelAccumulator(0), 23),
     ("model p 17", lambda: plumbfit.ModelAccumulator(17), 23),
     ("model p -1", lambda: plumbfit.ModelAccumulator(-1), -2),
+    ("fit_polynomial empty", lambda: plumbfit.fit_polynomial([], [], 1), 4),
     ("fit_polynomial one point", lambda: plumbfit.fit_polynomial([1.0], [2.0], 1), 121),
     ("fit_polynomial lengths differ", lambda: plumbfit.fit_polynomial(XS, YS[:9], 1), 22),
     ("fit_polynomial nan", lambda: plumbfit.fit_polynomial(with_nan(XS, 3), YS, 1), 20),
@@ -419,6 +441,19 @@ STATELESS: list[SCase] = [
     ("load_state short", lambda: plumbfit.load_state(model_in("many").to_bytes()[:-1]), 54),
     ("load_state long", lambda: plumbfit.load_state(model_in("many").to_bytes() + b"\0"), 55),
     ("peek_state empty", lambda: plumbfit.peek_state(b""), 54),
+    ("levels from_bytes line state",
+     lambda: plumbfit.ReplicateLevels.from_bytes(line_in("full", "many").to_bytes()), 53),
+    ("levels from_bytes model state",
+     lambda: plumbfit.ReplicateLevels.from_bytes(model_in("many").to_bytes()), 53),
+    ("levels from_bytes short",
+     lambda: plumbfit.ReplicateLevels.from_bytes(levels_in("many").to_bytes()[:-1]), 54),
+    ("levels from_bytes long",
+     lambda: plumbfit.ReplicateLevels.from_bytes(levels_in("many").to_bytes() + b"\0"), 55),
+    ("levels from_bytes corrupted", lambda: plumbfit.ReplicateLevels.from_bytes(_flip(levels_in("many").to_bytes(), 20)), 56),
+    ("line from_bytes level state",
+     lambda: plumbfit.LineAccumulator.from_bytes(levels_in("many").to_bytes()), 53),
+    ("model from_bytes level state",
+     lambda: plumbfit.ModelAccumulator.from_bytes(levels_in("many").to_bytes()), 53),
 ]
 
 
