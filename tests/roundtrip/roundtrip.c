@@ -62,15 +62,17 @@ static void write_file(const char *name, const void *buf, size_t len) {
     }
 }
 
-/* Part B: x, y, w (little-endian doubles, as this machine stores them). */
-static double bx[MAXN], by[MAXN], bw[MAXN];
+/* Part B: x, y, w, nominal levels (little-endian doubles, as this machine
+ * stores them). */
+static double bx[MAXN], by[MAXN], bw[MAXN], blx[MAXN];
 static size_t bn;
 
 static void load_part_b(void) {
     size_t nx = read_file("part_b_x.f64", bx, sizeof bx);
     size_t ny = read_file("part_b_y.f64", by, sizeof by);
     size_t nw = read_file("part_b_w.f64", bw, sizeof bw);
-    if (nx != ny || nx != nw || nx % 8 != 0 || nx == 0) {
+    size_t nl = read_file("part_b_lx.f64", blx, sizeof blx);
+    if (nx != ny || nx != nw || nx != nl || nx % 8 != 0 || nx == 0) {
         fprintf(stderr, "part B files disagree in length\n");
         exit(1);
     }
@@ -150,6 +152,29 @@ static void model_step(void) {
     printf("C step model: restored %zu bytes (same bytes saved back), added %zu rows\n", alen, bn);
 }
 
+static void levels_step(void) {
+    static uint8_t a[PF_STATE_MAX_LEN], again[PF_STATE_MAX_LEN], out[PF_STATE_MAX_LEN];
+    static pf_levels_storage storage;
+    size_t alen, wlen = 0, h = bn / 2, i;
+    pf_levels *lv = NULL, *other = NULL;
+    alen = read_file("a_levels.state", a, sizeof a);
+    CHECK_OK(pf_levels_init_in(&storage, sizeof storage, &lv));
+    CHECK_OK(pf_levels_restore(lv, a, alen));
+    CHECK_OK(pf_levels_save(lv, again, sizeof again, &wlen));
+    if (wlen != alen || memcmp(a, again, alen) != 0) {
+        fprintf(stderr, "levels: the C save of the restored store differs from the Rust bytes\n");
+        failures++;
+    }
+    for (i = 0; i < h; i++) CHECK_OK(pf_levels_push_weighted(lv, blx[i], by[i], bw[i]));
+    CHECK_OK(pf_levels_new(&other));
+    CHECK_OK(pf_levels_extend(other, blx + h, by + h, bn - h));
+    CHECK_OK(pf_levels_merge(lv, other));
+    CHECK_OK(pf_levels_free(other));
+    CHECK_OK(pf_levels_save(lv, out, sizeof out, &wlen));
+    write_file("c_levels.state", out, wlen);
+    printf("C step levels: restored %zu bytes (same bytes saved back), added %zu readings\n", alen, bn);
+}
+
 int main(int argc, char **argv) {
     static pf_line_lean_storage lean;
     static pf_line_full_storage full;
@@ -162,5 +187,6 @@ int main(int argc, char **argv) {
     line_step("lean", PF_TIER_LEAN, &lean, sizeof lean);
     line_step("full", PF_TIER_FULL, &full, sizeof full);
     model_step();
+    levels_step();
     return failures == 0 ? 0 : 1;
 }

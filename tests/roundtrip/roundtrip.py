@@ -22,8 +22,10 @@ import numpy as np
 
 import plumbfit
 
-# Pairs of part C pushed one at a time (as in tests/roundtrip/src/main.rs).
+# Pairs of part C pushed one at a time, and the line whose lack of fit is
+# tested (as in tests/roundtrip/src/main.rs).
 PY_PUSHES = 7
+LOF_LINE = [2.0, -0.5]
 
 
 def bits(v: float) -> int:
@@ -96,8 +98,22 @@ def main(folder: str) -> int:
     same("model.residual_sd", mf.residual_sd)
     same("model.rows", float(mf.rows))
 
+    clx = np.fromfile(d / "part_c_lx.f64", dtype="<f8")
+    blob = (d / "c_levels.state").read_bytes()
+    lv = plumbfit.ReplicateLevels.from_bytes(blob)
+    same_bytes("levels: Python save of the C state", lv.to_bytes(), blob)
+    part_l = plumbfit.ReplicateLevels()
+    part_l.extend(clx, cy)
+    lv.merge(part_l)
+    same_bytes("levels: final state", lv.to_bytes(), (d / "ref_levels.state").read_bytes())
+    lof = lv.lack_of_fit_polynomial(LOF_LINE)
+    same("levels.count", float(lof.count))
+    same("levels.levels", float(lof.levels))
+    for key in ("ss_lack_of_fit", "ss_pure_error", "f_stat", "p_value"):
+        same(f"levels.{key}", getattr(lof, key))
+
     # Every reference value was compared (nothing silently skipped).
-    expected = len(ref) - 1 + 6  # without "lambda"; plus 6 byte comparisons
+    expected = len(ref) - 1 + 8  # without "lambda"; plus 8 byte comparisons
     if checked != expected:
         failed.append(f"compared {checked} values, the reference holds {expected}")
     for f in failed:

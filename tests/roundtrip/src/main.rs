@@ -1,7 +1,8 @@
 //! Rust side of the cross-door round trip (`.ci/steps/75-roundtrip.sh`).
 //!
 //! `plumbfit-roundtrip <dir>` writes three invented data parts, the states of
-//! a lean line, a full line and a model (p = 3) after part A, and the
+//! a lean line, a full line, a model (p = 3) and a replicate-level store
+//! after part A, and the
 //! reference: the same three parts carried through exactly the sequence of
 //! calls the C program (part B) and the Python script (part C) make, all in
 //! this one door. The C program and the Python script check their bytes and
@@ -19,7 +20,14 @@
 //!    7 pairs of part C, the rest (more pairs than the Python door handles
 //!    with the GIL held) into a fresh accumulator (`extend`), merged in; the
 //!    final bytes and fit must equal `ref_<kind>.state` and `ref_fit.txt`.
+//!
+//! The level store takes the same readings at nominal levels `lx` (8
+//! levels shared by all parts): step 1 `extend`; step 2 weighted pushes of
+//! the first half of B, the second half merged in from a fresh store; step
+//! 3 part C merged in from a fresh store, and the lack-of-fit test of a
+//! fixed straight line must give the same bits.
 
+use plumbfit::calib::LevelSet;
 use plumbfit::model::{InterceptMode, ModelFitOptions};
 use plumbfit::state::StateTier;
 use plumbfit::{Full, Lean, ModelMoments, PairMoments};
@@ -31,12 +39,16 @@ use std::process::ExitCode;
 /// Forgetting factor applied by the C step.
 const LAMBDA: f64 = 0.995;
 
-/// One invented data part: x, y and (for part B) weights.
+/// One invented data part: x, y, weights and nominal levels.
 struct Part {
     x: Vec<f64>,
     y: Vec<f64>,
     w: Vec<f64>,
+    lx: Vec<f64>,
 }
+
+/// The straight line whose lack of fit against the levels is compared.
+const LOF_LINE: [f64; 2] = [2.0, -0.5];
 
 fn part(n: usize, offset: f64, seed: u64) -> Part {
     // A gently curved response with a deterministic wobble standing in for
@@ -52,6 +64,7 @@ fn part(n: usize, offset: f64, seed: u64) -> Part {
         x: Vec::with_capacity(n),
         y: Vec::with_capacity(n),
         w: Vec::with_capacity(n),
+        lx: Vec::with_capacity(n),
     };
     for i in 0..n {
         let x = offset + 0.037 * i as f64 + 0.01 * next();
@@ -59,6 +72,7 @@ fn part(n: usize, offset: f64, seed: u64) -> Part {
         p.x.push(x);
         p.y.push(y);
         p.w.push(0.5 + 1.5 * next());
+        p.lx.push(1.0 + 0.5 * ((i * 7) % 8) as f64);
     }
     p
 }
@@ -184,6 +198,32 @@ fn model_reference(dir: &Path, parts: &[Part; 3], out: &mut Vec<(String, f64)>) 
     Ok(())
 }
 
+fn levels_reference(dir: &Path, parts: &[Part; 3], out: &mut Vec<(String, f64)>) -> Res<()> {
+    let mut lv = LevelSet::new();
+    lv.extend(&parts[0].lx, &parts[0].y)?;
+    fs::write(dir.join("a_levels.state"), lv.save_to_vec()?)?;
+    let b = &parts[1];
+    let h = b.x.len() / 2;
+    for i in 0..h {
+        lv.push_weighted(b.lx[i], b.y[i], b.w[i])?;
+    }
+    let mut other = LevelSet::new();
+    other.extend(&b.lx[h..], &b.y[h..])?;
+    lv.merge(&other)?;
+    let mut part = LevelSet::new();
+    part.extend(&parts[2].lx, &parts[2].y)?;
+    lv.merge(&part)?;
+    fs::write(dir.join("ref_levels.state"), lv.save_to_vec()?)?;
+    let lof = lv.lack_of_fit_poly(&LOF_LINE)?;
+    out.push(("levels.count".into(), lof.count as f64));
+    out.push(("levels.levels".into(), lof.levels as f64));
+    out.push(("levels.ss_lack_of_fit".into(), lof.ss_lack_of_fit));
+    out.push(("levels.ss_pure_error".into(), lof.ss_pure_error));
+    out.push(("levels.f_stat".into(), lof.f_stat));
+    out.push(("levels.p_value".into(), lof.p_value()));
+    Ok(())
+}
+
 fn run(dir: &Path) -> Res<()> {
     fs::create_dir_all(dir)?;
     // Part C is longer than the Python door's GIL-release threshold.
@@ -196,11 +236,13 @@ fn run(dir: &Path) -> Res<()> {
         write_f64s(&dir.join(format!("part_{tag}_x.f64")), &p.x)?;
         write_f64s(&dir.join(format!("part_{tag}_y.f64")), &p.y)?;
         write_f64s(&dir.join(format!("part_{tag}_w.f64")), &p.w)?;
+        write_f64s(&dir.join(format!("part_{tag}_lx.f64")), &p.lx)?;
     }
     let mut vals = Vec::new();
     line_reference::<Lean>("lean", dir, &parts, &mut vals)?;
     line_reference::<Full>("full", dir, &parts, &mut vals)?;
     model_reference(dir, &parts, &mut vals)?;
+    levels_reference(dir, &parts, &mut vals)?;
     let mut f = fs::File::create(dir.join("ref_fit.txt"))?;
     writeln!(f, "lambda {:016x}", LAMBDA.to_bits())?;
     for (k, v) in &vals {
