@@ -32,21 +32,6 @@ trait Store: Clone + PartialEq + core::fmt::Debug {
     const FIXED: bool;
 }
 
-/// Lets one table call `merge` whether it reports errors or not.
-trait IntoResult {
-    fn into_result(self) -> Result<(), CalibError>;
-}
-impl IntoResult for () {
-    fn into_result(self) -> Result<(), CalibError> {
-        Ok(())
-    }
-}
-impl IntoResult for Result<(), CalibError> {
-    fn into_result(self) -> Self {
-        self
-    }
-}
-
 macro_rules! store_impl {
     ($t:ty, $fixed:expr) => {
         impl Store for $t {
@@ -63,7 +48,7 @@ macro_rules! store_impl {
                 self.extend_weighted(xs, ys, ws)
             }
             fn merge_in(&mut self, other: &Self) -> Result<(), CalibError> {
-                IntoResult::into_result(self.merge(other))
+                self.merge(other)
             }
             const FIXED: bool = $fixed;
         }
@@ -115,11 +100,23 @@ fn store_cases<S: Store>() -> Vec<(&'static str, StoreOp<S>, u16)> {
             |s| s.ext_w(&XS[..3], &YS[..3], &[1.0, 0.0, 1.0]),
             2,
         ),
+        (
+            // A level holding readings of ±1e300: its sum of squared
+            // deviations overflows.
+            "readings +-1e300 at one level",
+            |s| s.ext(&[1.0, 1.0], &[1e300, -1e300]),
+            100,
+        ),
     ]
 }
 
 fn run_store_matrix<S: Store>() -> usize {
     let mut tried = 0;
+    let far = {
+        let mut f = S::empty();
+        f.push_w(1.0, 1e300, 1.0).unwrap();
+        f
+    };
     let mut distinct = S::empty();
     for i in 0..32 {
         distinct.push_w(100.0 + i as f64, 1.0, 1.0).unwrap();
@@ -143,7 +140,18 @@ fn run_store_matrix<S: Store>() -> usize {
             assert_eq!(a, s, "{sname} / {cname}: store changed");
             tried += 1;
         }
-        // Merge (fixed store): more levels than fit.
+        // Merges: a reading 1e300 away into a level with readings near 1,
+        // and (fixed store) more levels than fit.
+        if sname == "few" || sname == "many" {
+            let mut a = s.clone();
+            assert_eq!(a.merge_in(&far).unwrap_err().code(), 100, "{sname}: far");
+            assert_eq!(a, s, "{sname}: far merge changed the store");
+            tried += 1;
+            let mut a = s.clone();
+            assert_eq!(a.push_w(1.0, 1e300, 1.0).unwrap_err().code(), 100);
+            assert_eq!(a, s, "{sname}: far push changed the store");
+            tried += 1;
+        }
         if S::FIXED && sname != "empty" {
             let mut a = s.clone();
             assert_eq!(a.merge_in(&distinct).unwrap_err().code(), 34, "{sname}");
@@ -160,12 +168,12 @@ fn run_store_matrix<S: Store>() -> usize {
 
 #[test]
 fn level_set_bad_input_matrix() {
-    assert_eq!(run_store_matrix::<LevelSet>(), 4 * 13);
+    assert_eq!(run_store_matrix::<LevelSet>(), 4 * 14 + 2 * 2);
 }
 
 #[test]
 fn fixed_levels_bad_input_matrix() {
-    assert_eq!(run_store_matrix::<FixedLevels<32>>(), 4 * 14 + 3);
+    assert_eq!(run_store_matrix::<FixedLevels<32>>(), 4 * 15 + 2 * 2 + 3);
 }
 
 // ---------------------------------------------------------------------------
@@ -243,6 +251,20 @@ fn model_huge_magnitudes_overflow_and_change_nothing() {
             assert_eq!(a.save_to_vec(), before, "merge far changed the state");
         }
     }
+}
+
+#[test]
+fn model_empty_blocks_are_refused() {
+    // Code 4 (DEVELOPERS.md: empty input), as for the line accumulator.
+    for s in [ModelMoments::new(3).unwrap(), model_many()] {
+        let mut a = s.clone();
+        let before = a.save_to_vec();
+        assert_eq!(a.extend_rows(&[], &[]).unwrap_err().code(), 4);
+        assert_eq!(a.extend_rows_weighted(&[], &[], &[]).unwrap_err().code(), 4);
+        assert_eq!(a.extend_powers(&[], &[]).unwrap_err().code(), 4);
+        assert_eq!(a.save_to_vec(), before);
+    }
+    assert_eq!(poly_fit(&[], &[], 2).unwrap_err().code(), 4);
 }
 
 #[test]
