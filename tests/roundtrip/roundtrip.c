@@ -4,7 +4,8 @@
  * caller storage, checks that saving them again gives the same bytes, adds
  * part B (weighted pushes of its first third, its second third merged in
  * from a fresh accumulator, forgetting, then plain pushes of its last
- * third) and saves c_<kind>.state.
+ * third) and saves c_<kind>.state. It also checks that a level state with
+ * more levels than PF_LEVELS_CAPACITY is refused with the storage unchanged.
  *
  * Usage: roundtrip <dir>   (the folder plumbfit-roundtrip wrote)
  */
@@ -172,6 +173,21 @@ static void levels_step(void) {
     CHECK_OK(pf_levels_free(other));
     CHECK_OK(pf_levels_save(lv, out, sizeof out, &wlen));
     write_file("c_levels.state", out, wlen);
+    {
+        /* More levels than PF_LEVELS_CAPACITY, saved by the Rust door: the
+         * restore is refused and the caller storage left as it was. */
+        static uint8_t big[PF_STATE_MAX_LEN];
+        static pf_levels_storage before;
+        size_t blen = read_file("big_levels.state", big, sizeof big);
+        pf_status s;
+        memcpy(&before, &storage, sizeof storage);
+        s = pf_levels_restore(lv, big, blen);
+        if (s != PF_ERR_STATE_STORAGE_TOO_SMALL || memcmp(&before, &storage, sizeof storage) != 0) {
+            fprintf(stderr, "levels: a 40-level state gave %u (%s), storage %s\n", (unsigned)s,
+                    pf_status_str(s), memcmp(&before, &storage, sizeof storage) ? "changed" : "unchanged");
+            failures++;
+        }
+    }
     printf("C step levels: restored %zu bytes (same bytes saved back), added %zu readings\n", alen, bn);
 }
 

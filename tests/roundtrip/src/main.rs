@@ -214,6 +214,13 @@ fn levels_reference(dir: &Path, parts: &[Part; 3], out: &mut Vec<(String, f64)>)
     part.extend(&parts[2].lx, &parts[2].y)?;
     lv.merge(&part)?;
     fs::write(dir.join("ref_levels.state"), lv.save_to_vec()?)?;
+    // A store the C door's fixed store cannot hold (40 levels): its restore
+    // there must be refused with the store unchanged.
+    let mut big = LevelSet::new();
+    for i in 0..40 {
+        big.push_weighted(0.25 * i as f64, 1.0 + i as f64, 1.0)?;
+    }
+    fs::write(dir.join("big_levels.state"), big.save_to_vec()?)?;
     let lof = lv.lack_of_fit_poly(&LOF_LINE)?;
     out.push(("levels.count".into(), lof.count as f64));
     out.push(("levels.levels".into(), lof.levels as f64));
