@@ -29,3 +29,4 @@ for t in test_bad_input test_bad_input-cxx; do
 done
 echo "-- test_bad_input (address + undefined-behaviour sanitizers)"
 "$OUT/test_bad_input-san"
+bash tests/c/check_bad_input_coverage.sh
