@@ -181,6 +181,7 @@ LINE_CASES: list[Case] = [
     ("forget -inf", LINES, STATES, lambda a: a.forget(-INF), 5),
     ("merge far state", LINES, FRAMED, lambda a: a.merge(far[a.tier]), 100),
     ("iadd far state", LINES, FRAMED, lambda a: a.__iadd__(far[a.tier]), 100),
+    ("add far state", LINES, FRAMED, lambda a: a + far[a.tier], 100),
     ("fit empty", LINES, ("empty",), lambda a: a.fit(), 101),
     ("slope_intercept empty", LINES, ("empty",), lambda a: a.slope_intercept(), 101),
     ("fit through origin empty", LINES, ("empty",), lambda a: a.fit(through_origin=True), 101),
@@ -247,6 +248,7 @@ MODEL_CASES: list[Case] = [
     ("forget inf", ("model",), STATES, lambda m: m.forget(INF), 24),
     ("merge p 2", ("model",), STATES, lambda m: m.merge(m_p2), 22),
     ("iadd p 2", ("model",), STATES, lambda m: m.__iadd__(m_p2), 22),
+    ("add p 2", ("model",), STATES, lambda m: m + m_p2, 22),
     ("merge far state", ("model",), FRAMED, lambda m: m.merge(m_far), 122),
     ("fit too few rows", ("model",), ("empty", "few"), lambda m: m.fit(), 121),
     ("extend empty block", ("model",), STATES, lambda m: m.extend(np.ones((0, 3)), []), 4),
@@ -415,6 +417,8 @@ STATELESS: list[SCase] = [
     ("model fit mean_response nan", lambda: _mfit.mean_response([1.0, NAN, 4.0]), 20),
     ("model fit prediction 0 replicates", lambda: _mfit.prediction([1.0, 2.0, 4.0], 0), 26),
     ("model fit prediction level nan", lambda: _mfit.prediction([1.0, 2.0, 4.0], 1, NAN), 25),
+    ("line fit unknown weights meaning",
+     lambda: line_in("lean", "many").fit(weights="known"), -1),  # type: ignore[arg-type]
     ("model fit bad intercept", lambda: model_in("many").fit(intercept="maybe"), -1),  # type: ignore[arg-type]
     ("retained residuals empty", lambda: plumbfit.RetainedResiduals([], [], _xfit), 4),
     ("retained residuals lengths differ", lambda: plumbfit.RetainedResiduals(XS, YS[:9], _xfit), 3),
