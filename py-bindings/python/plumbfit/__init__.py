@@ -19,7 +19,8 @@ Inputs: 1-D C-contiguous float64 arrays are read in place; lists, integer
 arrays and strided views are converted to float64 once. Large inputs are
 processed with the GIL released.
 
-Scale-out over Dask: see :mod:`plumbfit.dask` (needs ``dask[array]``).
+Scale-out over Dask (lines and p-parameter models, over dask arrays or
+dask dataframe columns): see :mod:`plumbfit.dask` (needs ``dask[array]``).
 """
 
 from ._native import (
