@@ -192,6 +192,7 @@ def test_model_empty_blocks_and_errors() -> None:
     xs = np.column_stack([np.ones(12), rng.uniform(0, 1, 12)])
     ys = 1.0 + 2.0 * xs[:, 1] + rng.normal(0, 0.01, 12)
     rows = da.from_array(xs, chunks=((0, 5, 0, 7), (2,)))
+    assert rows.numblocks == (4, 1)  # two of them empty
     acc = pfd.model_accumulator(rows, da.from_array(ys, chunks=6))
     ref = plumbfit.ModelAccumulator(2)
     ref.extend(xs, ys)
