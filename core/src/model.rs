@@ -1876,19 +1876,22 @@ impl ModelFit {
     /// the data, its hat-matrix diagonal is `w·h`).
     ///
     /// # Errors
-    /// [`ModelError::DimensionMismatch`] or [`ModelError::NonFinite`].
+    /// [`ModelError::DimensionMismatch`] or [`ModelError::NonFinite`];
+    /// [`ModelError::Overflow`] for a row so far out that the leverage
+    /// overflows.
     pub fn leverage(&self, row: &[f64]) -> Result<f64, ModelError> {
         self.check_row(row)?;
-        Ok(self.leverage_dd(row).to_f64())
+        finite_result(self.leverage_dd(row).to_f64())
     }
 
     /// Fitted value `xᵀβ` at a row (summed in double-double).
     ///
     /// # Errors
-    /// [`ModelError::DimensionMismatch`] or [`ModelError::NonFinite`].
+    /// [`ModelError::DimensionMismatch`] or [`ModelError::NonFinite`];
+    /// [`ModelError::Overflow`] if the value overflows.
     pub fn predict(&self, row: &[f64]) -> Result<f64, ModelError> {
         self.check_row(row)?;
-        Ok(self.predict_dd(row).to_f64())
+        finite_result(self.predict_dd(row).to_f64())
     }
 
     fn predict_dd(&self, row: &[f64]) -> Dd {
@@ -1961,14 +1964,15 @@ impl ModelFit {
     ///
     /// # Errors
     /// [`ModelError::InvalidLevel`], [`ModelError::DimensionMismatch`],
-    /// [`ModelError::NonFinite`].
+    /// [`ModelError::NonFinite`]; [`ModelError::Overflow`] for a row so far
+    /// out that the interval overflows.
     #[cfg(feature = "std")]
     pub fn mean_response(&self, row: &[f64], level: f64) -> Result<Interval, ModelError> {
         check_level(level)?;
         self.check_row(row)?;
         let h = self.leverage_dd(row);
         let se = h.mul(self.s2).sqrt().to_f64();
-        Ok(self.interval(row, se, level))
+        self.interval(row, se, level)
     }
 
     /// Prediction interval for the mean of `m` new observations at a row
@@ -1988,19 +1992,33 @@ impl ModelFit {
             .leverage_dd(row)
             .add(Dd::from_f64(1.0).div(Dd::from_f64(m as f64)));
         let se = h.mul(self.s2).sqrt().to_f64();
-        Ok(self.interval(row, se, level))
+        self.interval(row, se, level)
     }
 
     #[cfg(feature = "std")]
-    fn interval(&self, row: &[f64], se: f64, level: f64) -> Interval {
+    fn interval(&self, row: &[f64], se: f64, level: f64) -> Result<Interval, ModelError> {
         let est = self.predict_dd(row).to_f64();
         let t = t_quantile(level, self.df_resid);
-        Interval {
+        let iv = Interval {
             estimate: est,
             std_error: se,
             lower: est - t * se,
             upper: est + t * se,
+        };
+        for v in [iv.estimate, iv.std_error, iv.lower, iv.upper] {
+            finite_result(v)?;
         }
+        Ok(iv)
+    }
+}
+
+/// A query result that overflowed is an error, never an infinite or NaN
+/// value.
+fn finite_result(v: f64) -> Result<f64, ModelError> {
+    if v.is_finite() {
+        Ok(v)
+    } else {
+        Err(ModelError::Overflow)
     }
 }
 

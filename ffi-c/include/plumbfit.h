@@ -1545,8 +1545,8 @@ pf_status pf_fitted_line_calibrated_value(const pf_fitted_line *fit,
 
  Errors: `PF_ERR_NULL_POINTER`, `PF_ERR_BAD_ARGUMENT` (unknown source),
  `PF_ERR_INVALID_UNCERTAINTY` (given sigma negative or not finite),
- `PF_ERR_NO_INTERCEPT`, `PF_ERR_ZERO_SLOPE`. Reads `*fit` only;
- thread-safe.
+ `PF_ERR_NO_INTERCEPT`, `PF_ERR_ZERO_SLOPE`, `PF_ERR_OVERFLOW` (a limit
+ overflows). Reads `*fit` only; thread-safe.
 
  # Safety
  `fit` NULL or valid for reading; `out` NULL or valid for one
@@ -2429,7 +2429,8 @@ pf_status pf_model_coef_intervals(const pf_model *m,
  stored in `*out`.
 
  Errors: as `pf_model_fit`, plus `PF_ERR_MODEL_DIMENSION`,
- `PF_ERR_MODEL_NON_FINITE`, `PF_ERR_MISALIGNED`. Read-only.
+ `PF_ERR_MODEL_NON_FINITE`, `PF_ERR_MISALIGNED`, `PF_ERR_MODEL_OVERFLOW`
+ (a row so far out that the result overflows). Read-only.
 
  # Safety
  `m` NULL or a live handle; `row` NULL or valid for `row_len` doubles;

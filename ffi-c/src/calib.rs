@@ -314,8 +314,8 @@ pub unsafe extern "C" fn pf_fitted_line_calibrated_value(
 ///
 /// Errors: `PF_ERR_NULL_POINTER`, `PF_ERR_BAD_ARGUMENT` (unknown source),
 /// `PF_ERR_INVALID_UNCERTAINTY` (given sigma negative or not finite),
-/// `PF_ERR_NO_INTERCEPT`, `PF_ERR_ZERO_SLOPE`. Reads `*fit` only;
-/// thread-safe.
+/// `PF_ERR_NO_INTERCEPT`, `PF_ERR_ZERO_SLOPE`, `PF_ERR_OVERFLOW` (a limit
+/// overflows). Reads `*fit` only; thread-safe.
 ///
 /// # Safety
 /// `fit` NULL or valid for reading; `out` NULL or valid for one

@@ -851,7 +851,8 @@ fn interval_of(i: &pf_core::model::Interval) -> pf_interval {
 /// stored in `*out`.
 ///
 /// Errors: as `pf_model_fit`, plus `PF_ERR_MODEL_DIMENSION`,
-/// `PF_ERR_MODEL_NON_FINITE`, `PF_ERR_MISALIGNED`. Read-only.
+/// `PF_ERR_MODEL_NON_FINITE`, `PF_ERR_MISALIGNED`, `PF_ERR_MODEL_OVERFLOW`
+/// (a row so far out that the result overflows). Read-only.
 ///
 /// # Safety
 /// `m` NULL or a live handle; `row` NULL or valid for `row_len` doubles;

@@ -76,7 +76,7 @@ impl LineFit {
     /// [`CalibError::ZeroSlope`]; [`CalibError::NoIntercept`] for
     /// [`SigmaSource::InterceptSe`] on a line through the origin;
     /// [`CalibError::InvalidUncertainty`] for a negative or non-finite
-    /// given `σ`.
+    /// given `σ`; [`CalibError::Overflow`] if a limit overflows.
     pub fn limits_from_sigma(&self, source: SigmaSource) -> Result<LimitsFromSigma, CalibError> {
         let sigma = match source {
             SigmaSource::ResidualSd => self.residual_sd,
@@ -97,12 +97,17 @@ impl LineFit {
             return Err(CalibError::ZeroSlope);
         }
         let sb = libm::fabs(self.slope);
+        let quantitation = 10.0 * sigma / sb;
+        if !quantitation.is_finite() {
+            // The larger limit covers the detection limit too.
+            return Err(CalibError::Overflow);
+        }
         Ok(LimitsFromSigma {
             source,
             sigma,
             slope: self.slope,
             detection: 3.3 * sigma / sb,
-            quantitation: 10.0 * sigma / sb,
+            quantitation,
         })
     }
 }
