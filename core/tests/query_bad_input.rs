@@ -444,6 +444,11 @@ fn line_fit_queries_refuse_bad_arguments() {
         }
         assert_eq!(code(f.decision_limits(0.05, 0.05, 0, 1.0).map(|_| ())), 7);
         assert_eq!(code(f.decision_limits(0.05, 0.05, 1, 0.0).map(|_| ())), 2);
+        // A given sigma so large that the limits overflow.
+        assert_eq!(
+            code(f.limits_from_sigma(SigmaSource::Given(1e308)).map(|_| ())),
+            100
+        );
         if origin {
             assert_eq!(
                 code(f.limits_from_sigma(SigmaSource::InterceptSe).map(|_| ())),
@@ -472,6 +477,15 @@ fn model_fit_queries_refuse_bad_arguments() {
         assert_eq!(code(f.leverage(&bad).map(|_| ())), 20);
         assert_eq!(code(f.mean_response(&bad, 0.95).map(|_| ())), 20);
     }
+    // Rows so far out that the result overflows (code 122).
+    let far = [1.0, 1e300, 1.0];
+    assert_eq!(code(f.leverage(&far).map(|_| ())), 122);
+    assert_eq!(code(f.mean_response(&far, 0.95).map(|_| ())), 122);
+    assert_eq!(
+        code(f.prediction(&[1.0, 1e160, 1.0], 1, 0.95).map(|_| ())),
+        122
+    );
+    assert_eq!(code(f.predict(&[1e308, 1e308, 1e308]).map(|_| ())), 122);
     for short in [&[1.0, 2.0][..], &[][..], &[1.0, 2.0, 3.0, 4.0][..]] {
         assert_eq!(code(f.predict(short).map(|_| ())), 22, "{short:?}");
         assert_eq!(code(f.leverage(short).map(|_| ())), 22);

@@ -394,6 +394,7 @@ STATELESS: list[SCase] = [
     ("limits sigma -1", lambda: _fit.limits_from_sigma(-1.0), 32),
     ("limits sigma nan", lambda: _fit.limits_from_sigma(NAN), 32),
     ("limits sigma inf", lambda: _fit.limits_from_sigma(INF), 32),
+    ("limits sigma 1e308 (limits overflow)", lambda: _fit.limits_from_sigma(1e308), 100),
     ("limits intercept_se through origin",
      lambda: _origin_fit.limits_from_sigma("intercept_se"), 37),
     ("limits unknown source", lambda: _fit.limits_from_sigma("blank_sd"), -1),  # type: ignore[arg-type]
@@ -413,6 +414,11 @@ STATELESS: list[SCase] = [
     ("model fit predict row of 2", lambda: _mfit.predict([1.0, 2.0]), 22),
     ("model fit predict rows of 4", lambda: _mfit.predict(np.ones((2, 4))), 22),
     ("model fit leverage inf", lambda: _mfit.leverage([1.0, INF, 1.0]), 20),
+    # Rows so far out that the result overflows.
+    ("model fit leverage 1e300", lambda: _mfit.leverage([1.0, 1e300, 1.0]), 122),
+    ("model fit predict 1e308", lambda: _mfit.predict([1e308, 1e308, 1e308]), 122),
+    ("model fit mean_response 1e300", lambda: _mfit.mean_response([1.0, 1e300, 1.0]), 122),
+    ("model fit prediction 1e160", lambda: _mfit.prediction([1.0, 1e160, 1.0]), 122),
     ("model fit mean_response level 1", lambda: _mfit.mean_response([1.0, 2.0, 4.0], 1.0), 25),
     ("model fit mean_response nan", lambda: _mfit.mean_response([1.0, NAN, 4.0]), 20),
     ("model fit prediction 0 replicates", lambda: _mfit.prediction([1.0, 2.0, 4.0], 0), 26),

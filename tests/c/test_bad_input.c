@@ -320,6 +320,12 @@ OP(m_mean_inf, pf_model_mean_response(f->model, PF_INTERCEPT_DETECT, ROW3_MINF, 
 OP(m_pred_m0, pf_model_prediction(f->model, PF_INTERCEPT_DETECT, ROW3, P, 0, 0.95, sink.iv))
 OP(m_pred_level, pf_model_prediction(f->model, PF_INTERCEPT_DETECT, ROW3, P, 1, NAN, sink.iv))
 OP(m_lev_nan, pf_model_leverage(f->model, PF_INTERCEPT_DETECT, ROW3_NAN, P, sink.d))
+static const double ROW3_FAR[P] = {1.0, 1e300, 1.0};
+static const double ROW3_MAX[P] = {1e308, 1e308, 1e308};
+OP(m_lev_far, pf_model_leverage(f->model, PF_INTERCEPT_DETECT, ROW3_FAR, P, sink.d))
+OP(m_predict_max, pf_model_predict(f->model, PF_INTERCEPT_DETECT, ROW3_MAX, P, sink.d))
+OP(m_mean_far, pf_model_mean_response(f->model, PF_INTERCEPT_DETECT, ROW3_FAR, P, 0.95, sink.iv))
+OP(m_pred_far, pf_model_prediction(f->model, PF_INTERCEPT_DETECT, ROW3_FAR, P, 1, 0.95, sink.iv))
 OP(m_lev_icpt, pf_model_leverage(f->model, 7u, ROW3, P, sink.d))
 OP(m_fit_few, pf_model_fit(f->model, PF_INTERCEPT_DETECT, &sink.info, sink.d + 100, P, sink.d + 120, P))
 
@@ -516,6 +522,11 @@ static const struct hcase hcases[] = {
     {"model prediction level nan", K_MODEL, FRAMED, m_pred_level, PF_ERR_MODEL_LEVEL},
     {"model leverage nan row", K_MODEL, FRAMED, m_lev_nan, PF_ERR_MODEL_NON_FINITE},
     {"model leverage intercept 7", K_MODEL, FRAMED, m_lev_icpt, PF_ERR_BAD_ARGUMENT},
+    /* Rows so far out that the result overflows. */
+    {"model leverage row 1e300", K_MODEL, FRAMED, m_lev_far, PF_ERR_MODEL_OVERFLOW},
+    {"model predict row 1e308", K_MODEL, FRAMED, m_predict_max, PF_ERR_MODEL_OVERFLOW},
+    {"model mean_response row 1e300", K_MODEL, FRAMED, m_mean_far, PF_ERR_MODEL_OVERFLOW},
+    {"model prediction row 1e300", K_MODEL, FRAMED, m_pred_far, PF_ERR_MODEL_OVERFLOW},
     {"model fit with too few rows", K_MODEL, S_EMPTY | S_FEW, m_fit_few, PF_ERR_TOO_FEW_ROWS},
 
     {"levels push nan x", K_LEVELS, S_ALL, v_push_nan_x, PF_ERR_NON_FINITE},
@@ -773,6 +784,7 @@ SOP(f_lim_src_max, pf_fitted_line_limits(G, UINT32_MAX, 1.0, &sink.lim))
 SOP(f_lim_sneg, pf_fitted_line_limits(G, PF_SIGMA_GIVEN, -1.0, &sink.lim))
 SOP(f_lim_snan, pf_fitted_line_limits(G, PF_SIGMA_GIVEN, NAN, &sink.lim))
 SOP(f_lim_sinf, pf_fitted_line_limits(G, PF_SIGMA_GIVEN, INFINITY, &sink.lim))
+SOP(f_lim_huge, pf_fitted_line_limits(G, PF_SIGMA_GIVEN, 1e308, &sink.lim))
 SOP(f_lim_origin, pf_fitted_line_limits(&origin_fit, PF_SIGMA_INTERCEPT_SE, 0.0, &sink.lim))
 SOP(f_dec_a0, pf_fitted_line_decision_limits(G, 0.0, 0.05, 1, 1.0, &sink.dec))
 SOP(f_dec_ahalf, pf_fitted_line_decision_limits(G, 0.5, 0.05, 1, 1.0, &sink.dec))
@@ -864,6 +876,7 @@ static const struct scase scases[] = {
     {"limits sigma nan", f_lim_snan, PF_ERR_INVALID_UNCERTAINTY},
     {"limits sigma inf", f_lim_sinf, PF_ERR_INVALID_UNCERTAINTY},
     {"limits intercept se through origin", f_lim_origin, PF_ERR_NO_INTERCEPT},
+    {"limits sigma 1e308 (limits overflow)", f_lim_huge, PF_ERR_OVERFLOW},
     {"decision alpha 0", f_dec_a0, PF_ERR_INVALID_LEVEL},
     {"decision alpha 0.5", f_dec_ahalf, PF_ERR_INVALID_LEVEL},
     {"decision alpha nan", f_dec_anan, PF_ERR_INVALID_LEVEL},
