@@ -485,10 +485,16 @@ impl LineFit {
     /// Two-sided t quantile for `level`, e.g. 0.95.
     ///
     /// # Errors
-    /// [`LineError::InvalidLevel`].
+    /// [`LineError::InvalidLevel`], also for a level so close to 1 that
+    /// the quantile is not finite in double precision.
     pub fn t_critical(&self, level: f64) -> Result<f64, LineError> {
         check_level(level)?;
-        Ok(crate::dist::t_quantile(0.5 + level / 2.0, self.t_df()))
+        let t = crate::dist::t_quantile(0.5 + level / 2.0, self.t_df());
+        if t.is_finite() {
+            Ok(t)
+        } else {
+            Err(LineError::InvalidLevel)
+        }
     }
 
     fn interval(&self, center: f64, se: f64, level: f64) -> Result<Interval, LineError> {

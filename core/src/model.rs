@@ -1793,13 +1793,22 @@ fn check_level(level: f64) -> Result<(), ModelError> {
     }
 }
 
-/// Two-sided Student t quantile for `level` with `df` degrees of freedom.
+/// Two-sided Student t quantile for `level` with `df` degrees of freedom;
+/// a level so close to 1 that the quantile is not finite in double
+/// precision is refused like any other invalid level.
 #[cfg(feature = "std")]
-fn t_quantile(level: f64, df: u64) -> f64 {
+fn t_quantile(level: f64, df: u64) -> Result<f64, ModelError> {
     use statrs::distribution::{ContinuousCDF, StudentsT};
-    match StudentsT::new(0.0, 1.0, df as f64) {
+    let t = match StudentsT::new(0.0, 1.0, df as f64) {
         Ok(t) => t.inverse_cdf(0.5 + level / 2.0),
         Err(_) => f64::NAN, // unreachable: df ≥ 1 is guaranteed by fit()
+    };
+    if t.is_finite() {
+        Ok(t)
+    } else {
+        Err(ModelError::InvalidLevel {
+            bits: level.to_bits(),
+        })
     }
 }
 
@@ -1946,7 +1955,7 @@ impl ModelFit {
     #[cfg(feature = "std")]
     pub fn coef_intervals(&self, level: f64) -> Result<Vec<Interval>, ModelError> {
         check_level(level)?;
-        let t = t_quantile(level, self.df_resid);
+        let t = t_quantile(level, self.df_resid)?;
         Ok(self
             .coefficients
             .iter()
@@ -1998,7 +2007,7 @@ impl ModelFit {
     #[cfg(feature = "std")]
     fn interval(&self, row: &[f64], se: f64, level: f64) -> Result<Interval, ModelError> {
         let est = self.predict_dd(row).to_f64();
-        let t = t_quantile(level, self.df_resid);
+        let t = t_quantile(level, self.df_resid)?;
         let iv = Interval {
             estimate: est,
             std_error: se,

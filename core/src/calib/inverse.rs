@@ -436,11 +436,18 @@ fn fieller(g: &Geometry, reading: &Reading, t: f64) -> (FiellerSet, f64) {
     (set, gval)
 }
 
+/// The two-sided critical value at `level`; a level so close to 1 that it
+/// is not finite in double precision is refused like any invalid level.
 #[cfg(feature = "std")]
-fn t_of(fit: &LineFit, level: f64) -> f64 {
-    match fit.weights {
+fn t_of(fit: &LineFit, level: f64) -> Result<f64, CalibError> {
+    let t = match fit.weights {
         WeightMeaning::InverseVariance => crate::dist::normal_quantile(0.5 + level / 2.0),
         _ => crate::dist::t_quantile(0.5 + level / 2.0, fit.df_resid),
+    };
+    if t.is_finite() {
+        Ok(t)
+    } else {
+        Err(CalibError::InvalidLevel)
     }
 }
 
@@ -455,7 +462,7 @@ impl LineFit {
     pub fn fieller_set(&self, reading: &Reading, level: f64) -> Result<FiellerSet, CalibError> {
         reading.check()?;
         super::check_level(level)?;
-        let t = t_of(self, level);
+        let t = t_of(self, level)?;
         Ok(fieller(&Geometry::of(self), reading, t).0)
     }
 
@@ -471,7 +478,7 @@ impl LineFit {
     ) -> Result<InverseInterval, CalibError> {
         super::check_level(level)?;
         let estimate = self.invert(reading)?;
-        let t = t_of(self, level);
+        let t = t_of(self, level)?;
         let (set, g) = fieller(&Geometry::of(self), reading, t);
         Ok(InverseInterval {
             estimate,

@@ -335,6 +335,10 @@ impl PolyCalibration {
         } else {
             crate::dist::t_quantile(0.5 + level / 2.0, self.df_resid)
         };
+        if !t.is_finite() {
+            // A level so close to 1 that its quantile is not finite.
+            return Err(CalibError::InvalidLevel);
+        }
         let s2h = self.residual_sd * self.residual_sd * reading.h0();
         let y0 = reading.value;
         let outside = |x: f64| {
