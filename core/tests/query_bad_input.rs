@@ -358,7 +358,10 @@ fn line_fit(origin: bool) -> plumbfit::LineFit {
 
 #[test]
 fn line_fit_queries_refuse_bad_arguments() {
-    let bad_levels = [0.0, 1.0, -0.5, 1.5, NAN, INF, -INF];
+    // The largest double below 1 is refused too: 0.5 + level/2 rounds to
+    // 1, whose quantile is infinite.
+    let below_one = 1.0 - f64::EPSILON / 2.0;
+    let bad_levels = [0.0, 1.0, -0.5, 1.5, NAN, INF, -INF, below_one];
     for origin in [false, true] {
         let f = line_fit(origin);
         let copy = f;
@@ -466,7 +469,7 @@ fn model_fit_queries_refuse_bad_arguments() {
         .unwrap();
     let row = [1.0, 2.0, 4.0];
     let code = |r: Result<(), ModelError>| r.unwrap_err().code();
-    for l in [0.0, 1.0, -0.5, 1.5, NAN, INF] {
+    for l in [0.0, 1.0, -0.5, 1.5, NAN, INF, 1.0 - f64::EPSILON / 2.0] {
         assert_eq!(code(f.coef_intervals(l).map(|_| ())), 25, "level {l}");
         assert_eq!(code(f.mean_response(&row, l).map(|_| ())), 25);
         assert_eq!(code(f.prediction(&row, 1, l).map(|_| ())), 25);
@@ -616,7 +619,7 @@ fn polynomial_calibration_refuses_bad_arguments() {
     assert_eq!(inv(Reading::single(3.0).with_weight(0.0)), 2);
     assert_eq!(inv(Reading::single(3.0).with_weight(NAN)), 2);
     assert_eq!(inv(Reading::single(1e300)), 132); // no root in [0, 4]
-    for l in [0.0, 1.0, NAN, -0.5] {
+    for l in [0.0, 1.0, NAN, -0.5, 1.0 - f64::EPSILON / 2.0] {
         let e = cal.invert_interval(&Reading::single(3.0), l).map(|_| ());
         assert_eq!(e.unwrap_err().code(), 6, "level {l}");
     }

@@ -22,6 +22,7 @@ import plumbfit
 
 NAN = float("nan")
 INF = float("inf")
+BELOW_ONE = float(np.nextafter(1.0, 0.0))
 
 # Code -> class, from the documented hierarchy: 1-99 InvalidInputError
 # (with the named subclasses), 100-199 NumericalError (ditto).
@@ -359,6 +360,11 @@ STATELESS: list[SCase] = [
     ("line fit slope_interval 1", lambda: _fit.slope_interval(1.0), 6),
     ("line fit intercept_interval nan", lambda: _fit.intercept_interval(NAN), 6),
     ("line fit t_critical -0.5", lambda: _fit.t_critical(-0.5), 6),
+    # The largest double below 1: 0.5 + level/2 rounds to 1 (infinite quantile).
+    ("line fit t_critical below 1", lambda: _fit.t_critical(BELOW_ONE), 6),
+    ("line fit slope_interval below 1", lambda: _fit.slope_interval(BELOW_ONE), 6),
+    ("invert_interval level below 1", lambda: _fit.invert_interval(3.0, level=BELOW_ONE), 6),
+    ("model fit coef_intervals below 1", lambda: _mfit.coef_intervals(BELOW_ONE), 25),
     ("line fit mean_band nan x", lambda: _fit.mean_band(NAN), 1),
     ("line fit mean_band 1e300", lambda: _fit.mean_band(1e300), 1),
     ("line fit mean_band level 1.5", lambda: _fit.mean_band(1.0, 1.5), 6),

@@ -313,6 +313,7 @@ OP(m_ci_level_1, pf_model_coef_intervals(f->model, PF_INTERCEPT_DETECT, 1.0, sin
 OP(m_ci_level_neg, pf_model_coef_intervals(f->model, PF_INTERCEPT_DETECT, -0.5, sink.iv, P))
 OP(m_ci_level_nan, pf_model_coef_intervals(f->model, PF_INTERCEPT_DETECT, NAN, sink.iv, P))
 OP(m_ci_level_big, pf_model_coef_intervals(f->model, PF_INTERCEPT_DETECT, 95.0, sink.iv, P))
+OP(m_ci_level_below1, pf_model_coef_intervals(f->model, PF_INTERCEPT_DETECT, nextafter(1.0, 0.0), sink.iv, P))
 OP(m_predict_nan, pf_model_predict(f->model, PF_INTERCEPT_DETECT, ROW3_NAN, P, sink.d))
 OP(m_predict_len, pf_model_predict(f->model, PF_INTERCEPT_DETECT, ROW3, 2, sink.d))
 OP(m_mean_level, pf_model_mean_response(f->model, PF_INTERCEPT_DETECT, ROW3, P, 1.0, sink.iv))
@@ -514,6 +515,7 @@ static const struct hcase hcases[] = {
     {"model intervals level -0.5", K_MODEL, FRAMED, m_ci_level_neg, PF_ERR_MODEL_LEVEL},
     {"model intervals level nan", K_MODEL, FRAMED, m_ci_level_nan, PF_ERR_MODEL_LEVEL},
     {"model intervals level 95", K_MODEL, FRAMED, m_ci_level_big, PF_ERR_MODEL_LEVEL},
+    {"model intervals level below 1 by an ulp", K_MODEL, FRAMED, m_ci_level_below1, PF_ERR_MODEL_LEVEL},
     {"model predict nan row", K_MODEL, FRAMED, m_predict_nan, PF_ERR_MODEL_NON_FINITE},
     {"model predict row_len 2", K_MODEL, FRAMED, m_predict_len, PF_ERR_MODEL_DIMENSION},
     {"model mean_response level 1", K_MODEL, FRAMED, m_mean_level, PF_ERR_MODEL_LEVEL},
@@ -813,6 +815,11 @@ SOP(f_icpt_linf, pf_fitted_line_intercept_interval(G, INFINITY, sink.iv))
 SOP(f_crit_l0, pf_fitted_line_critical_value(G, 0.0, sink.d))
 SOP(f_crit_lneg, pf_fitted_line_critical_value(G, -1.0, sink.d))
 SOP(f_crit_lnan, pf_fitted_line_critical_value(G, NAN, sink.d))
+/* The largest double below 1: 0.5 + level/2 rounds to 1, whose quantile is
+ * infinite, so the level is refused too. */
+SOP(f_crit_below1, pf_fitted_line_critical_value(G, nextafter(1.0, 0.0), sink.d))
+SOP(f_slope_below1, pf_fitted_line_slope_interval(G, nextafter(1.0, 0.0), sink.iv))
+SOP(f_inv_below1, pf_fitted_line_invert(G, 3.0, 1, 1.0, nextafter(1.0, 0.0), &sink.inv))
 SOP(f_res_empty, pf_fitted_line_residuals(G, XS, YS, 0, sink.d, 10))
 SOP(f_res_short, pf_fitted_line_residuals(G, XS, YS, 4, sink.d, 10))
 SOP(f_res_nan10, pf_fitted_line_residuals(G, deep_nan, YS, 10, sink.d, 10))
@@ -904,6 +911,9 @@ static const struct scase scases[] = {
     {"critical_value level 0", f_crit_l0, PF_ERR_INVALID_LEVEL},
     {"critical_value level -1", f_crit_lneg, PF_ERR_INVALID_LEVEL},
     {"critical_value level nan", f_crit_lnan, PF_ERR_INVALID_LEVEL},
+    {"critical_value level below 1 by an ulp", f_crit_below1, PF_ERR_INVALID_LEVEL},
+    {"slope_interval level below 1 by an ulp", f_slope_below1, PF_ERR_INVALID_LEVEL},
+    {"invert level below 1 by an ulp", f_inv_below1, PF_ERR_INVALID_LEVEL},
     {"residuals len 0", f_res_empty, PF_ERR_EMPTY_INPUT},
     {"residuals 4 pairs of a 10-pair fit", f_res_short, PF_ERR_DIAG_FIT_MISMATCH},
     {"residuals nan x", f_res_nan10, PF_ERR_NON_FINITE},
