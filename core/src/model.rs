@@ -965,7 +965,7 @@ fn fold_rows<S: RowSource>(
         t.add_row(src.x0(r), weight(r));
     }
     let main = fold_dispatch(s, p, src, ys, ws);
-    if !main.is_finite() || !t.wsq.is_finite() || !t.wsum.is_finite() {
+    if !main.is_finite() || !t.wsq.is_finite() || !t.wsum.is_finite() || !t.count.is_finite() {
         return Err(ModelError::Overflow);
     }
     main.store_lane(0, s);
@@ -1105,7 +1105,7 @@ fn state_merge(s: &mut [f64], p: usize, other: &[f64]) -> Result<(), ModelError>
     let mut t = Tally::read(s);
     t.merge(&Tally::read(other));
     let forgot = s[H_FORGOT] != 0.0 || other[H_FORGOT] != 0.0;
-    if !main.is_finite() || !t.wsq.is_finite() || !t.wsum.is_finite() {
+    if !main.is_finite() || !t.wsq.is_finite() || !t.wsum.is_finite() || !t.count.is_finite() {
         return Err(ModelError::Overflow);
     }
     main.store_lane(0, s);

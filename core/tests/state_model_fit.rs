@@ -149,3 +149,27 @@ fn empty_blocks_are_refused_like_the_line_accumulator() {
         ModelError::EmptyInput
     );
 }
+
+#[test]
+fn merging_row_counts_past_the_double_range_is_refused() {
+    // A restored state may hold any finite row count (merges add counts
+    // without a cap); one near f64::MAX merged with itself would make the
+    // count infinite, which no restore accepts. The merge refuses instead
+    // (found by the state_decode fuzz target).
+    let mut m = ModelMoments::new(2).unwrap();
+    line_rows(&mut m, 1.0);
+    let mut b = m.save_to_vec();
+    // Rows are the third f64 of the model payload (docs/state-format.md).
+    let at = plumbfit::state::HEADER_LEN + 16;
+    b[at..at + 8].copy_from_slice(&1.5e308f64.to_le_bytes());
+    let body = b.len() - 4;
+    let crc = plumbfit::state::crc32(&b[..body]);
+    b[body..].copy_from_slice(&crc.to_le_bytes());
+    let mut big = ModelMoments::restore(&b).unwrap();
+    let copy = big.clone();
+    assert_eq!(big.merge(&copy), Err(ModelError::Overflow));
+    assert_eq!(big.save_to_vec(), b, "a refused merge changed the state");
+    // The same count merged with a small state still fits.
+    assert_eq!(big.merge(&m), Ok(()));
+    assert!(ModelMoments::restore(&big.save_to_vec()).is_ok());
+}
