@@ -247,18 +247,19 @@ unsafe fn with_fit(
 }
 
 /// Fits, then writes `op(fit, row)` to `out`: the shared body of the
-/// per-row scalar queries (prediction, leverage).
+/// per-row queries (prediction, leverage, mean-response and prediction
+/// intervals).
 ///
 /// # Safety
 /// `m` NULL or a live handle; `row` NULL or valid for `row_len` doubles;
-/// `out` NULL or valid for one double.
-unsafe fn row_scalar(
+/// `out` NULL or valid for one `T`.
+unsafe fn row_query<T>(
     m: *const pf_model,
     intercept: u32,
     row: *const f64,
     row_len: usize,
-    out: *mut f64,
-    op: impl FnOnce(&ModelFit, &[f64]) -> Result<f64, ModelError>,
+    out: *mut T,
+    op: impl FnOnce(&ModelFit, &[f64]) -> Result<T, ModelError>,
 ) -> pf_status {
     if out.is_null() || m.is_null() {
         return PF_ERR_NULL_POINTER;
@@ -866,7 +867,7 @@ pub unsafe extern "C" fn pf_model_predict(
     out: *mut f64,
 ) -> pf_status {
     // SAFETY: forwarded contract.
-    unsafe { row_scalar(m, intercept, row, row_len, out, ModelFit::predict) }
+    unsafe { row_query(m, intercept, row, row_len, out, ModelFit::predict) }
 }
 
 /// Confidence interval at `level` for the mean response at a new row,
@@ -885,22 +886,10 @@ pub unsafe extern "C" fn pf_model_mean_response(
     level: f64,
     out: *mut pf_interval,
 ) -> pf_status {
-    if out.is_null() || m.is_null() {
-        return PF_ERR_NULL_POINTER;
-    }
     // SAFETY: forwarded contract.
-    let row = match unsafe { slice_in(row, row_len) } {
-        Ok(r) => r,
-        Err(e) => return e,
-    };
-    // SAFETY: forwarded contract; `out` checked.
     unsafe {
-        with_fit(m, intercept, |f| match f.mean_response(row, level) {
-            Ok(i) => {
-                write_out(out, interval_of(&i));
-                PF_OK
-            }
-            Err(e) => model_err(e),
+        row_query(m, intercept, row, row_len, out, |f, r| {
+            f.mean_response(r, level).map(|i| interval_of(&i))
         })
     }
 }
@@ -923,22 +912,10 @@ pub unsafe extern "C" fn pf_model_prediction(
     level: f64,
     out: *mut pf_interval,
 ) -> pf_status {
-    if out.is_null() || m.is_null() {
-        return PF_ERR_NULL_POINTER;
-    }
     // SAFETY: forwarded contract.
-    let row = match unsafe { slice_in(row, row_len) } {
-        Ok(r) => r,
-        Err(e) => return e,
-    };
-    // SAFETY: forwarded contract; `out` checked.
     unsafe {
-        with_fit(m, intercept, |f| match f.prediction(row, m_new, level) {
-            Ok(i) => {
-                write_out(out, interval_of(&i));
-                PF_OK
-            }
-            Err(e) => model_err(e),
+        row_query(m, intercept, row, row_len, out, |f, r| {
+            f.prediction(r, m_new, level).map(|i| interval_of(&i))
         })
     }
 }
@@ -959,5 +936,5 @@ pub unsafe extern "C" fn pf_model_leverage(
     out: *mut f64,
 ) -> pf_status {
     // SAFETY: forwarded contract.
-    unsafe { row_scalar(m, intercept, row, row_len, out, ModelFit::leverage) }
+    unsafe { row_query(m, intercept, row, row_len, out, ModelFit::leverage) }
 }
