@@ -1129,6 +1129,14 @@ fn state_forget(s: &mut [f64], p: usize, lambda: f64) -> Result<(), ModelError> 
         let v = Dd { hi: h, lo: l }.mul_f64(lambda);
         (v.hi, v.lo)
     };
+    // Refuse, as the line accumulator does, when a weight that was there
+    // would underflow to zero: the history would vanish silently.
+    let vanishes = |h: f64, l: f64| h != 0.0 && scale(h, l).0 == 0.0;
+    if (s[H_COUNT] > 0.0 && s[H_WSUM] * lambda == 0.0)
+        || (0..p).any(|i| vanishes(s[off_dh(p) + i], s[off_dl(p) + i]))
+    {
+        return Err(ModelError::Overflow);
+    }
     for i in 0..p {
         let (h, l) = scale(s[off_dh(p) + i], s[off_dl(p) + i]);
         s[off_dh(p) + i] = h;
@@ -1353,8 +1361,10 @@ macro_rules! accumulator_methods {
         /// still count rows, not their decayed weights.
         ///
         /// # Errors
-        /// [`ModelError::InvalidForgetting`] unless `0 < lambda ≤ 1`; the
-        /// state is then unchanged.
+        /// [`ModelError::InvalidForgetting`] unless `0 < lambda ≤ 1`;
+        /// [`ModelError::Overflow`] if the weight sum or a diagonal weight
+        /// would underflow to zero (the history would vanish). The state
+        /// is then unchanged.
         pub fn forget(&mut self, lambda: f64) -> Result<(), ModelError> {
             state_forget(&mut self.buf, self.p, lambda)
         }

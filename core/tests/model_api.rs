@@ -622,3 +622,21 @@ fn collinear_first_rows_do_not_spoil_the_factor() {
     }
     assert!(close(fit.sse, exact_sse, REL_DD), "sse {}", fit.sse);
 }
+
+#[test]
+fn forgetting_into_underflow_is_refused_and_keeps_the_state() {
+    // Same rule as the line accumulator: a forgetting that would underflow
+    // the weights to zero is refused (the history would vanish silently).
+    let mut acc = ModelMoments::new(2).unwrap();
+    for i in 0..10 {
+        let x = i as f64;
+        acc.push_row(&[1.0, x], 1.0 + 2.0 * x).unwrap();
+    }
+    acc.forget(1e-300).unwrap();
+    let before = acc.save_to_vec();
+    assert_eq!(acc.forget(1e-300), Err(ModelError::Overflow));
+    assert_eq!(ModelError::Overflow.code(), 122); // DEVELOPERS.md: 122
+    assert_eq!(acc.save_to_vec(), before);
+    // A factor that keeps the weights representable is still taken.
+    acc.forget(0.5).unwrap();
+}

@@ -186,6 +186,8 @@ impl ModelAccumulator {
     }
 
     /// Multiplies the weight of every row so far by `factor` in (0, 1].
+    /// Raises `StateOverflowError` (code 122), the state unchanged, if a
+    /// weight would underflow to zero.
     fn forget(&mut self, factor: f64) -> PyResult<()> {
         self.inner.forget(factor).map_err(raise)
     }

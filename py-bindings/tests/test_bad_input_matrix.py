@@ -545,3 +545,17 @@ def test_forgetting_into_underflow_is_refused(tier: str, state: str) -> None:
         acc.forget(1e-300)
     assert ei.value.code == 100
     assert acc.to_bytes() == before
+
+
+@pytest.mark.parametrize("state", ("few", "many", "aged"))
+def test_model_forgetting_into_underflow_is_refused(state: str) -> None:
+    # As for the line: forget(1e-300) twice would underflow every weight to
+    # zero; the second call is refused with the model's overflow code 122
+    # and the state is unchanged.
+    m = model_in(state)
+    m.forget(1e-300)
+    before = m.to_bytes()
+    with pytest.raises(plumbfit.StateOverflowError) as ei:
+        m.forget(1e-300)
+    assert ei.value.code == 122
+    assert m.to_bytes() == before

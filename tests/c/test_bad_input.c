@@ -988,29 +988,37 @@ static void run_stateless_cases(void) {
 }
 
 /* Forgetting that would underflow every weight to zero: the first
- * forget(1e-300) is valid, the second is refused (PF_ERR_OVERFLOW) and must
- * leave the state, and the caller storage, as they were. */
+ * forget(1e-300) is valid, the second is refused (PF_ERR_OVERFLOW for a
+ * line, PF_ERR_MODEL_OVERFLOW for a model) and must leave the state, and
+ * the caller storage, as they were. */
+static pf_status forget_in(int kind, struct fx *f, double lambda) {
+    return kind == K_MODEL ? pf_model_forget(f->model, lambda) : pf_line_forget(f->line, lambda);
+}
+
 static void run_underflow_checks(void) {
     static uint8_t before[PF_STATE_MAX_LEN], after[PF_STATE_MAX_LEN];
-    int kind, st, f0;
-    for (kind = K_LEAN; kind <= K_FULL; kind <<= 1) {
+    static const int kinds[] = {K_LEAN, K_FULL, K_MODEL};
+    int k, st, f0;
+    for (k = 0; k < 3; k++) {
+        int kind = kinds[k];
+        pf_status want = kind == K_MODEL ? PF_ERR_MODEL_OVERFLOW : PF_ERR_OVERFLOW;
         for (st = S_FEW; st <= S_AGED; st <<= 1) {
             struct fx f;
             size_t nb, na;
             pf_status s;
             f0 = failures;
-            if (build(kind, st, 0, &f) != PF_OK || pf_line_forget(f.line, 1e-300) != PF_OK) {
+            if (build(kind, st, 0, &f) != PF_OK || forget_in(kind, &f, 1e-300) != PF_OK) {
                 FAILF("underflow / %s / %s: set-up failed\n", kind_name(kind), state_names[state_index(st)]);
                 cases_failed++;
                 continue;
             }
             nb = snapshot(kind, &f, before);
             memcpy(&storage_before, &storage, sizeof storage);
-            s = pf_line_forget(f.line, 1e-300);
+            s = forget_in(kind, &f, 1e-300);
             cases_run++;
-            if (s != PF_ERR_OVERFLOW)
+            if (s != want)
                 FAILF("underflow / %s / %s: returned %u (%s), expected %u\n", kind_name(kind),
-                      state_names[state_index(st)], (unsigned)s, pf_status_str(s), (unsigned)PF_ERR_OVERFLOW);
+                      state_names[state_index(st)], (unsigned)s, pf_status_str(s), (unsigned)want);
             na = snapshot(kind, &f, after);
             if (na != nb || memcmp(before, after, nb) != 0 || memcmp(&storage, &storage_before, storage_used) != 0)
                 FAILF("underflow / %s / %s: state changed\n", kind_name(kind), state_names[state_index(st)]);
