@@ -618,37 +618,90 @@ mod tests {
     #[test]
     fn simd_kernels_equal_scalar_bit_for_bit() {
         // The lane contract (plumbfit-kernels docs): same operations, same
-        // lanes, same reduction order, so the results must be identical
-        // (tolerance 0).
-        if plumbfit_kernels::active().is_none() {
-            return; // No SIMD path on this CPU: the scalar kernel is all there is.
-        }
-        // Lengths around the 512-pair pieces of the second pass and a whole
-        // chunk, on top of every block-remainder class.
-        let more = [511, 513, 1024, LONG_CHUNK - 1, LONG_CHUNK];
-        for (seed, n) in LENGTHS.iter().chain(&more).enumerate() {
-            let (mut xs, ys) = data(*n, seed as u64 + 1);
+        // lanes, same reduction order, so every SIMD set this CPU has must
+        // give exactly the scalar mirror's results (tolerance 0).
+        use plumbfit_kernels::KernelSet;
+        let sets: Vec<KernelSet> = KernelSet::ALL
+            .into_iter()
+            .filter(|k| *k != KernelSet::Scalar && k.supported())
+            .collect();
+        // Every length up to 70 (every remainder of the 4-, 8- and
+        // 16-pair blocks, several times), lengths around the 512-pair
+        // pieces of the AVX second pass and a whole chunk.
+        let more = [
+            127,
+            128,
+            129,
+            511,
+            512,
+            513,
+            1024,
+            1027,
+            LONG_CHUNK - 1,
+            LONG_CHUNK,
+        ];
+        let lengths: Vec<usize> = (1..=70).chain(more).collect();
+        let mut checked = 0;
+        for (seed, &n) in lengths.iter().enumerate() {
+            let (mut xs, ys) = data(n, seed as u64 + 1);
             if seed % 2 == 1 {
                 // Sorted x (a time base): large means far from the first pair.
                 xs.sort_by(f64::total_cmp);
             }
-            for b0 in [0.0, 2.5, -1e-3] {
-                let (xc, yc) = (xs[0], ys[0]);
-                let simd = plumbfit_kernels::shifted_sums(&xs, &ys, xc, yc, b0);
-                let s = shifted_scalar(&xs, &ys, xc, yc, b0);
-                let simd = simd.map(|q| [q.sx, q.sv, q.sxx, q.sxv, q.svv]);
-                assert_eq!(simd, Some([s.sx, s.sv, s.sxx, s.sxv, s.svv]), "n = {n}");
-                let c = full_scalar(&xs, &ys, xc, yc, b0);
-                for next in [false, true] {
-                    let q = plumbfit_kernels::full_sums(&xs, &ys, xc, yc, b0, next).map(|q| {
-                        let lim = (q.xmin, q.xmax, q.ymin, q.ymax);
-                        (q.sx, q.sv, q.cu, q.ct, q.m, q.lag, lim)
-                    });
+            for b0 in [0.0, 2.5, -1e-3, 2.4999999] {
+                // The chunk's first pair as the shift (as `extend` does) and
+                // a shift far from the data (offsets of 1e9 left in).
+                for (xc, yc) in [(xs[0], ys[0]), (0.0, 0.0)] {
+                    let s = shifted_scalar(&xs, &ys, xc, yc, b0);
+                    let c = full_scalar(&xs, &ys, xc, yc, b0);
+                    let want = (c.sx, c.sv, c.cu, c.ct, c.m, c.lag);
                     let lim = (c.xmin, c.xmax, c.ymin, c.ymax);
-                    let want = (c.sx, c.sv, c.cu, c.ct, c.m, c.lag, lim);
-                    assert_eq!(q, Some(want), "n = {n}");
+                    for &k in &sets {
+                        let q = plumbfit_kernels::shifted_sums_with(k, &xs, &ys, xc, yc, b0)
+                            .map(|q| [q.sx, q.sv, q.sxx, q.sxv, q.svv]);
+                        let s = [s.sx, s.sv, s.sxx, s.sxv, s.svv];
+                        assert_eq!(q, Some(s), "{k:?} shifted n = {n} b0 = {b0} xc = {xc}");
+                        for next in [false, true] {
+                            let q = plumbfit_kernels::full_sums_with(k, &xs, &ys, xc, yc, b0, next);
+                            let q = q.map(|q| {
+                                let lim = (q.xmin, q.xmax, q.ymin, q.ymax);
+                                ((q.sx, q.sv, q.cu, q.ct, q.m, q.lag), lim)
+                            });
+                            assert_eq!(q, Some((want, lim)), "{k:?} full n = {n} b0 = {b0}");
+                        }
+                        checked += 1;
+                    }
                 }
             }
+        }
+        // On a CPU with any SIMD set, the comparison above must have run.
+        assert_eq!(checked, sets.len() * lengths.len() * 8);
+    }
+
+    #[cfg(feature = "simd")]
+    #[test]
+    fn every_kernel_set_gives_the_same_accumulator() {
+        // Whole `extend` calls (many chunks, the chunk shift and frame
+        // slope as in use) with each SIMD set forced in turn: the encoded
+        // states must be identical to the scalar kernels' (tolerance 0).
+        // Other tests may run meanwhile; results do not depend on the set,
+        // so a cap changed under them cannot change what they check.
+        use crate::{FullMoments, LeanMoments};
+        use plumbfit_kernels::{limit_kernels, KernelSet};
+        let (xs, ys) = data(3 * LONG_CHUNK + 77, 99);
+        let mut states = Vec::new();
+        for k in KernelSet::ALL.into_iter().filter(|k| k.supported()) {
+            assert_eq!(limit_kernels(Some(k)), k);
+            let mut lean = LeanMoments::new();
+            let mut full = FullMoments::new();
+            lean.extend(&xs, &ys).expect("finite data");
+            full.extend(&xs, &ys).expect("finite data");
+            states.push((k, lean.save_to_vec(), full.save_to_vec()));
+        }
+        limit_kernels(None);
+        for (k, lean, full) in &states[1..] {
+            assert_eq!(lean, &states[0].1, "{k:?} lean");
+            assert_eq!(full, &states[0].2, "{k:?} full");
         }
     }
 }

@@ -1,38 +1,55 @@
 //! Hand-written SIMD chunk kernels behind `plumbfit`'s `extend` and `push`:
-//! the per-chunk sums of the pair-moment accumulator, on x86-64 AVX,
-//! selected at run time.
+//! the per-chunk sums of the pair-moment accumulator, on x86-64 AVX-512 and
+//! AVX, selected at run time.
 //!
-//! `plumbfit` itself forbids `unsafe`; the intrinsics live here. Every
-//! kernel returns `None` when the CPU lacks the instructions (or the target
-//! is not x86-64), and the caller then runs its scalar kernel.
+//! `plumbfit` itself forbids `unsafe`; the intrinsics live here. The best
+//! [`KernelSet`] the CPU supports is chosen once (AVX-512 F, then AVX, then
+//! none) and cached; [`limit_kernels`] and the environment variable
+//! [`KERNELS_ENV`] cap that choice so tests and benchmarks can run each
+//! path. Every kernel returns `None` when the selected set is
+//! [`KernelSet::Scalar`] (no SIMD on this CPU, or the target is not
+//! x86-64), and the caller then runs its scalar kernel.
 //!
 //! # Lane contract (what makes the scalar fallback bit-for-bit equal)
 //! The kernels use no fused multiply-add and never reassociate: each sum is
 //! kept in a fixed number of lanes and reduced in a fixed order, so a
-//! scalar loop that keeps the same lanes gives the same bits.
+//! scalar loop that keeps the same lanes gives the same bits, and so does
+//! every kernel set (results never depend on which CPU ran them).
 //! * [`shifted_sums`]: 8 lanes. Pair `i < 8⌊n/8⌋` goes to lane `i mod 8`;
 //!   the lanes reduce as `((l0+l4)+(l2+l6)) + ((l1+l5)+(l3+l7))`; the
 //!   remaining pairs are added in order into a separate sum that starts at
-//!   0 and is added last.
+//!   0 and is added last. AVX keeps a sum in two 256-bit registers, AVX-512
+//!   in one 512-bit register.
 //! * [`full_sums`]: 4 lanes in every sum, reduced as `(l0+l2) + (l1+l3)`.
 //!   Pair `i` goes to lane `i mod 4`, all the way to the end: the last,
 //!   partial block is padded with zeros and its empty lanes masked to +0,
 //!   which leaves a lane's sum unchanged (a sum that starts at +0 is never
 //!   −0). The lag term of pair 0 (which has no predecessor) is +0 too. The
 //!   products are formed as listed in the scalar mirror (`u²·ut` for
-//!   `u³t`, and so on). Minima and maxima are exact in any order (inputs
-//!   are finite; the caller rejects chunks with NaN).
+//!   `u³t`, and so on; only the order of a product's two factors may
+//!   differ, which does not change its rounding). Minima and maxima are
+//!   exact in any order (inputs are finite; the caller rejects chunks with
+//!   NaN); both sets keep them in the same four lanes too. AVX keeps a sum
+//!   in one 256-bit register; AVX-512 packs two sums of the same four pairs
+//!   into one register, `[sum A lanes 0–3 | sum B lanes 0–3]`, fed by
+//!   `[term A | term B]`, which halves the vector adds.
 //!
-//! Why plain AVX (256-bit), without FMA and without AVX-512: a fused
-//! multiply-add rounds once where the scalar mirror rounds twice, so an FMA
-//! kernel would need an FMA in the mirror too; `f64::mul_add` and
+//! # Why no FMA
+//! A fused multiply-add rounds once where the scalar mirror rounds twice,
+//! so an FMA kernel would need an FMA in the mirror too; `f64::mul_add` and
 //! `libm::fma` are library calls of about 5 ns wherever the build does not
 //! target a CPU with FMA (portable x86 builds without the `simd` feature,
 //! CPUs without AVX2, no_std builds), which would make the scalar full tier
 //! ten to twenty times slower there. On a shared AMD EPYC (Zen 3), a
 //! trial with FMA in the full kernel's sums gained 5–25% on data in cache
-//! and nothing clear at 10⁷ pairs. AVX-512 is not used: the machines that
-//! test this code have none to verify it on.
+//! and nothing clear at 10⁷ pairs.
+//!
+//! # Where AVX-512 helps
+//! Measured on an Intel Xeon (KVM, 2 cores) with `speed-report`, which
+//! times the AVX path beside the selected one (see `docs/speed.md`): the
+//! lean kernel gains where its data is in cache and is memory-bound at
+//! 10⁷ pairs; the full kernel, bound by its vector adds, gains at every
+//! size from 10⁴ up.
 //!
 #![deny(missing_docs)]
 #![allow(clippy::too_many_arguments)]
@@ -83,36 +100,186 @@ pub struct FullSums {
     pub ymax: f64,
 }
 
-/// Which SIMD path the kernels take on this CPU, or `None` for none (the
-/// caller's scalar kernels run).
-pub fn active() -> Option<&'static str> {
-    #[cfg(target_arch = "x86_64")]
-    {
-        if std::arch::is_x86_feature_detected!("avx") {
-            return Some("avx");
-        }
-    }
-    None
+/// A set of chunk kernels: which instructions [`shifted_sums`] and
+/// [`full_sums`] use. All sets give the same bits (the lane contract); they
+/// differ only in speed.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub enum KernelSet {
+    /// No SIMD path: the kernels return `None` and the caller runs its
+    /// scalar mirror.
+    Scalar,
+    /// 256-bit AVX (no FMA).
+    Avx,
+    /// 512-bit AVX-512 F (no FMA), with lane masks for the last block.
+    Avx512,
 }
 
-/// [`ShiftedSums`] of `xs`, `ys` (their common length), or `None` when no
-/// SIMD path is available.
+impl KernelSet {
+    /// Every set, slowest first.
+    pub const ALL: [KernelSet; 3] = [KernelSet::Scalar, KernelSet::Avx, KernelSet::Avx512];
+
+    /// Short lower-case name: `scalar`, `avx`, `avx512` (the values of
+    /// [`KERNELS_ENV`]).
+    pub fn name(self) -> &'static str {
+        match self {
+            KernelSet::Scalar => "scalar",
+            KernelSet::Avx => "avx",
+            KernelSet::Avx512 => "avx512",
+        }
+    }
+
+    /// The set called `name` (as [`KernelSet::name`] spells it), if any.
+    pub fn from_name(name: &str) -> Option<KernelSet> {
+        KernelSet::ALL.into_iter().find(|k| k.name() == name)
+    }
+
+    /// True when this CPU executes the set's instructions (always for
+    /// [`KernelSet::Scalar`]).
+    pub fn supported(self) -> bool {
+        match self {
+            KernelSet::Scalar => true,
+            #[cfg(target_arch = "x86_64")]
+            KernelSet::Avx => std::arch::is_x86_feature_detected!("avx"),
+            #[cfg(target_arch = "x86_64")]
+            KernelSet::Avx512 => std::arch::is_x86_feature_detected!("avx512f"),
+            #[cfg(not(target_arch = "x86_64"))]
+            _ => false,
+        }
+    }
+
+    fn code(self) -> u8 {
+        self as u8 + 1
+    }
+
+    fn from_code(c: u8) -> Option<KernelSet> {
+        KernelSet::ALL.get(usize::from(c).checked_sub(1)?).copied()
+    }
+}
+
+/// Environment variable read once, at the first kernel call, to cap the
+/// run-time choice: `scalar`, `avx` or `avx512` (the best supported set up
+/// to that one is used); unset or any other value: no cap. For tests and
+/// benchmarks of a particular path; [`limit_kernels`] overrides it.
+pub const KERNELS_ENV: &str = "PLUMBFIT_KERNELS";
+
+mod choice {
+    use super::KernelSet;
+    use std::sync::atomic::{AtomicU8, Ordering};
+
+    /// The chosen set's code, 0 before the first choice.
+    static CHOSEN: AtomicU8 = AtomicU8::new(0);
+    /// The cap's code, 0 for none yet (then [`super::KERNELS_ENV`] is read),
+    /// `NO_CAP` for none.
+    static CAP: AtomicU8 = AtomicU8::new(0);
+    const NO_CAP: u8 = u8::MAX;
+
+    fn best_up_to(cap: KernelSet) -> KernelSet {
+        KernelSet::ALL
+            .into_iter()
+            .rev()
+            .find(|k| *k <= cap && k.supported())
+            .unwrap_or(KernelSet::Scalar)
+    }
+
+    #[inline]
+    pub(super) fn chosen() -> KernelSet {
+        match KernelSet::from_code(CHOSEN.load(Ordering::Relaxed)) {
+            Some(k) => k,
+            None => choose(),
+        }
+    }
+
+    #[cold]
+    fn choose() -> KernelSet {
+        let mut cap = CAP.load(Ordering::Relaxed);
+        if cap == 0 {
+            let env = std::env::var(super::KERNELS_ENV).ok();
+            cap = env
+                .as_deref()
+                .and_then(KernelSet::from_name)
+                .map_or(NO_CAP, KernelSet::code);
+            // A cap set meanwhile by `limit` wins over the environment.
+            cap = match CAP.compare_exchange(0, cap, Ordering::Relaxed, Ordering::Relaxed) {
+                Ok(_) => cap,
+                Err(now) => now,
+            };
+        }
+        let k = best_up_to(KernelSet::from_code(cap).unwrap_or(KernelSet::Avx512));
+        CHOSEN.store(k.code(), Ordering::Relaxed);
+        k
+    }
+
+    pub(super) fn limit(cap: Option<KernelSet>) -> KernelSet {
+        CAP.store(cap.map_or(NO_CAP, KernelSet::code), Ordering::Relaxed);
+        CHOSEN.store(0, Ordering::Relaxed);
+        chosen()
+    }
+}
+
+/// The kernel set [`shifted_sums`] and [`full_sums`] use: the best this CPU
+/// supports (AVX-512, then AVX, then none), capped by [`limit_kernels`] or
+/// [`KERNELS_ENV`]. Chosen once and cached.
+#[inline]
+pub fn selected() -> KernelSet {
+    choice::chosen()
+}
+
+/// Caps the run-time choice at `cap` (`None`: no cap, the best supported
+/// set), for every thread, and returns the set now selected. Results do
+/// not change (every set gives the same bits), only speed: this exists so
+/// tests and benchmarks can run each path in one process.
+pub fn limit_kernels(cap: Option<KernelSet>) -> KernelSet {
+    choice::limit(cap)
+}
+
+/// Name of the selected SIMD set (`"avx512"`, `"avx"`), or `None` when the
+/// caller's scalar kernels run.
+pub fn active() -> Option<&'static str> {
+    match selected() {
+        KernelSet::Scalar => None,
+        k => Some(k.name()),
+    }
+}
+
+/// [`ShiftedSums`] of `xs`, `ys` (their common length) with the selected
+/// set, or `None` when that is [`KernelSet::Scalar`].
 #[inline]
 pub fn shifted_sums(xs: &[f64], ys: &[f64], xc: f64, yc: f64, b0: f64) -> Option<ShiftedSums> {
+    shifted_sums_with(selected(), xs, ys, xc, yc, b0)
+}
+
+/// [`shifted_sums`] with the set `k`, or `None` when `k` is
+/// [`KernelSet::Scalar`] or this CPU does not support it.
+#[inline]
+pub fn shifted_sums_with(
+    k: KernelSet,
+    xs: &[f64],
+    ys: &[f64],
+    xc: f64,
+    yc: f64,
+    b0: f64,
+) -> Option<ShiftedSums> {
     let n = xs.len().min(ys.len());
     let _ = (n, xc, yc, b0);
     #[cfg(target_arch = "x86_64")]
-    {
-        if std::arch::is_x86_feature_detected!("avx") {
+    match k {
+        KernelSet::Avx512 if k.supported() => {
+            // SAFETY: AVX-512 F is present (checked just above).
+            return Some(unsafe { avx512::shifted(&xs[..n], &ys[..n], xc, yc, b0) });
+        }
+        KernelSet::Avx if k.supported() => {
             // SAFETY: AVX is present (checked just above).
             return Some(unsafe { avx::shifted(&xs[..n], &ys[..n], xc, yc, b0) });
         }
+        _ => {}
     }
+    let _ = k;
     None
 }
 
 /// [`FullSums`] of `xs`, `ys` (their common length) about the shift
-/// `(xc, yc)` and slope `b0`, or `None` when no SIMD path is available.
+/// `(xc, yc)` and slope `b0` with the selected set, or `None` when that is
+/// [`KernelSet::Scalar`].
 ///
 /// Pass 1 reads the chunk once (means, extremes, lag sums); pass 2 reads
 /// it again from cache (centred sums of orders 1–4). With `prefetch_next`
@@ -129,17 +296,41 @@ pub fn full_sums(
     b0: f64,
     prefetch_next: bool,
 ) -> Option<FullSums> {
+    full_sums_with(selected(), xs, ys, xc, yc, b0, prefetch_next)
+}
+
+/// [`full_sums`] with the set `k`, or `None` when `k` is
+/// [`KernelSet::Scalar`] or this CPU does not support it.
+#[inline]
+pub fn full_sums_with(
+    k: KernelSet,
+    xs: &[f64],
+    ys: &[f64],
+    xc: f64,
+    yc: f64,
+    b0: f64,
+    prefetch_next: bool,
+) -> Option<FullSums> {
     let n = xs.len().min(ys.len());
     let _ = (n, xc, yc, b0, prefetch_next);
     #[cfg(target_arch = "x86_64")]
-    {
-        if std::arch::is_x86_feature_detected!("avx") {
+    match k {
+        KernelSet::Avx512 if k.supported() => {
+            // SAFETY: AVX-512 F is present (checked just above).
+            return Some(unsafe { avx512::full(&xs[..n], &ys[..n], xc, yc, b0, prefetch_next) });
+        }
+        KernelSet::Avx if k.supported() => {
             // SAFETY: AVX is present (checked just above).
             return Some(unsafe { avx::full(&xs[..n], &ys[..n], xc, yc, b0, prefetch_next) });
         }
+        _ => {}
     }
+    let _ = k;
     None
 }
+
+#[cfg(target_arch = "x86_64")]
+mod avx512;
 
 #[cfg(target_arch = "x86_64")]
 mod avx {
