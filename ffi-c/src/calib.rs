@@ -461,6 +461,30 @@ unsafe fn levels_ref(l: *const pf_levels, f: impl FnOnce(&Levels) -> pf_status) 
     unsafe { guard_ref(l, TAG_LEVELS, |_, p| f(&(*p.cast::<LevelsObj>()).levels)) }
 }
 
+impl crate::state::StateHandle for pf_levels {
+    unsafe fn read_state(
+        h: *const Self,
+        f: &dyn Fn(&dyn crate::state::Saves) -> pf_status,
+    ) -> pf_status {
+        // SAFETY: forwarded contract.
+        unsafe { levels_ref(h, |s| f(s)) }
+    }
+
+    unsafe fn write_state(
+        h: *mut Self,
+        f: &dyn Fn(&mut dyn crate::state::Restores) -> pf_status,
+    ) -> pf_status {
+        // SAFETY: forwarded contract; the tag proves the object type.
+        unsafe {
+            guard_mut(
+                h,
+                TAG_LEVELS,
+                |_, p| f(&mut (*p.cast::<LevelsObj>()).levels),
+            )
+        }
+    }
+}
+
 /// # Safety
 /// `p` valid for writing a `LevelsObj`, aligned.
 unsafe fn build_levels(p: *mut u8, flags: u32) {
@@ -767,16 +791,8 @@ pub unsafe extern "C" fn pf_levels_lack_of_fit(
 /// `l` NULL or a live handle; `out` NULL or valid for one `size_t`.
 #[no_mangle]
 pub unsafe extern "C" fn pf_levels_state_len(l: *const pf_levels, out: *mut usize) -> pf_status {
-    if out.is_null() {
-        return PF_ERR_NULL_POINTER;
-    }
-    // SAFETY: forwarded contract; `out` checked.
-    unsafe {
-        levels_ref(l, |s| {
-            write_out(out, s.encoded_len());
-            PF_OK
-        })
-    }
+    // SAFETY: forwarded contract.
+    unsafe { crate::state::state_len(l, out) }
 }
 
 /// Saves the level store `l` into `out` (capacity `cap` bytes) and stores
@@ -798,15 +814,8 @@ pub unsafe extern "C" fn pf_levels_save(
     cap: usize,
     written: *mut usize,
 ) -> pf_status {
-    if out.is_null() || written.is_null() {
-        return PF_ERR_NULL_POINTER;
-    }
-    // SAFETY: forwarded contract; outputs checked.
-    unsafe {
-        levels_ref(l, |s| {
-            crate::state::save_with(out, cap, written, s.encoded_len(), |b| s.save_into(b))
-        })
-    }
+    // SAFETY: forwarded contract.
+    unsafe { crate::state::save(l, out, cap, written) }
 }
 
 /// Replaces the contents of `l` by the level state saved in `bytes` (`len`
@@ -829,22 +838,6 @@ pub unsafe extern "C" fn pf_levels_restore(
     bytes: *const u8,
     len: usize,
 ) -> pf_status {
-    if l.is_null() {
-        return PF_ERR_NULL_POINTER;
-    }
     // SAFETY: forwarded contract.
-    let b = match unsafe { boundary::slice_in_bytes(bytes, len) } {
-        Ok(b) => b,
-        Err(e) => return e,
-    };
-    // SAFETY: forwarded contract; the tag proves the object type.
-    unsafe {
-        guard_mut(l, TAG_LEVELS, |_, p| match Levels::restore(b) {
-            Ok(v) => {
-                (*p.cast::<LevelsObj>()).levels = v;
-                PF_OK
-            }
-            Err(e) => crate::state::state_err(e),
-        })
-    }
+    unsafe { crate::state::restore(l, bytes, len) }
 }

@@ -5,9 +5,10 @@
 
 use crate::boundary::{self, slice_in_bytes, write_out};
 use crate::status::*;
+use pf_core::calib::FixedLevels;
 use pf_core::model::{storage_len, ModelCore, MAX_PARAMS};
-use pf_core::state::{self, StateError, StateKind};
-use pf_core::{FullMoments, LeanMoments};
+use pf_core::state::{self, StateError, StateKind, StateTier};
+use pf_core::PairMoments;
 
 /// Bytes of a saved lean line accumulator.
 pub const PF_STATE_LINE_LEAN_LEN: usize = 308;
@@ -81,23 +82,202 @@ fn kind_code(k: StateKind) -> u32 {
     }
 }
 
-/// Writes `save(out)` into the caller buffer and its length to `written`.
+/// A state the C door saves: its encoded length and its encoder (the
+/// core's, for every accumulator kind).
+pub(crate) trait Saves {
+    /// Bytes the save writes.
+    fn encoded_len(&self) -> usize;
+    /// Encodes into `out` (at least `encoded_len` bytes); returns the bytes
+    /// written.
+    fn save_into(&self, out: &mut [u8]) -> Result<usize, StateError>;
+}
+
+/// A state the C door restores in place: `bytes` is checked in full and
+/// the state is replaced only on success.
+pub(crate) trait Restores {
+    /// Replaces the state by the one saved in `bytes`, or returns the error
+    /// and leaves it unchanged.
+    fn restore_from(&mut self, bytes: &[u8]) -> pf_status;
+}
+
+impl<T: StateTier> Saves for PairMoments<T> {
+    fn encoded_len(&self) -> usize {
+        PairMoments::encoded_len(self)
+    }
+    fn save_into(&self, out: &mut [u8]) -> Result<usize, StateError> {
+        PairMoments::save_into(self, out)
+    }
+}
+
+impl<T: StateTier> Restores for PairMoments<T> {
+    fn restore_from(&mut self, bytes: &[u8]) -> pf_status {
+        replace(self, PairMoments::restore(bytes))
+    }
+}
+
+impl Saves for ModelCore<'_> {
+    fn encoded_len(&self) -> usize {
+        ModelCore::encoded_len(self)
+    }
+    fn save_into(&self, out: &mut [u8]) -> Result<usize, StateError> {
+        ModelCore::save_into(self, out)
+    }
+}
+
+impl<const N: usize> Saves for FixedLevels<N> {
+    fn encoded_len(&self) -> usize {
+        FixedLevels::encoded_len(self)
+    }
+    fn save_into(&self, out: &mut [u8]) -> Result<usize, StateError> {
+        FixedLevels::save_into(self, out)
+    }
+}
+
+impl<const N: usize> Restores for FixedLevels<N> {
+    fn restore_from(&mut self, bytes: &[u8]) -> pf_status {
+        replace(self, FixedLevels::restore(bytes))
+    }
+}
+
+/// The raw state of a model handle with its `p`, as restored in place.
+struct ModelState<'a> {
+    params: usize,
+    words: &'a mut [f64],
+}
+
+impl Restores for ModelState<'_> {
+    fn restore_from(&mut self, bytes: &[u8]) -> pf_status {
+        let info = match state::peek(bytes) {
+            Ok(i) => i,
+            Err(e) => return state_err(e),
+        };
+        if info.kind == StateKind::Model && info.params as usize != self.params {
+            return from_code(
+                pf_core::model::ModelError::DimensionMismatch {
+                    expected: self.params,
+                    found: info.params as usize,
+                }
+                .code(),
+            );
+        }
+        // Restore into a copy: the handle changes only on success.
+        let n = self.words.len();
+        let mut tmp = [0.0f64; storage_len(MAX_PARAMS)];
+        match ModelCore::restore_in(&mut tmp[..n], bytes) {
+            Ok(_) => {
+                self.words.copy_from_slice(&tmp[..n]);
+                PF_OK
+            }
+            Err(e) => state_err(e),
+        }
+    }
+}
+
+/// `*slot = restored` if the restore succeeded.
+fn replace<T>(slot: &mut T, restored: Result<T, StateError>) -> pf_status {
+    match restored {
+        Ok(v) => {
+            *slot = v;
+            PF_OK
+        }
+        Err(e) => state_err(e),
+    }
+}
+
+/// A handle type of the C door whose state is saved and restored: how to
+/// reach that state (shared by `pf_*_state_len`, `pf_*_save` and
+/// `pf_*_restore`).
+pub(crate) trait StateHandle {
+    /// Runs `f` on the state of `h`, read-only; handle errors are returned
+    /// without calling `f`.
+    ///
+    /// # Safety
+    /// `h` NULL or a live handle that nobody mutates during the call.
+    unsafe fn read_state(h: *const Self, f: &dyn Fn(&dyn Saves) -> pf_status) -> pf_status;
+
+    /// Runs `f` on the state of `h`, exclusively; handle errors are
+    /// returned without calling `f`.
+    ///
+    /// # Safety
+    /// `h` NULL or a live handle used by nobody else during the call.
+    unsafe fn write_state(h: *mut Self, f: &dyn Fn(&mut dyn Restores) -> pf_status) -> pf_status;
+}
+
+impl StateHandle for crate::pf_line {
+    unsafe fn read_state(h: *const Self, f: &dyn Fn(&dyn Saves) -> pf_status) -> pf_status {
+        // SAFETY: forwarded contract.
+        unsafe { crate::line::with_either(h, |a| f(a), |a| f(a)) }
+    }
+
+    unsafe fn write_state(h: *mut Self, f: &dyn Fn(&mut dyn Restores) -> pf_status) -> pf_status {
+        // SAFETY: forwarded contract.
+        unsafe { crate::line::with_either_mut(h, |a| f(a), |a| f(a)) }
+    }
+}
+
+impl StateHandle for crate::pf_model {
+    unsafe fn read_state(h: *const Self, f: &dyn Fn(&dyn Saves) -> pf_status) -> pf_status {
+        // SAFETY: forwarded contract.
+        unsafe { crate::model::with_core(h, |c| f(c)) }
+    }
+
+    unsafe fn write_state(h: *mut Self, f: &dyn Fn(&mut dyn Restores) -> pf_status) -> pf_status {
+        // SAFETY: forwarded contract.
+        unsafe {
+            crate::model::with_state_mut(h, |params, words| f(&mut ModelState { params, words }))
+        }
+    }
+}
+
+/// The body of every `pf_*_state_len`: the bytes a save of `h` writes.
 ///
 /// # Safety
-/// `out` non-NULL and valid for `cap` bytes; `written` non-NULL, writable.
-pub(crate) unsafe fn save_with(
+/// `h` NULL or a live handle; `out` NULL or valid for one `size_t`.
+pub(crate) unsafe fn state_len<H: StateHandle>(h: *const H, out: *mut usize) -> pf_status {
+    if out.is_null() {
+        return PF_ERR_NULL_POINTER;
+    }
+    // SAFETY: forwarded contract; `out` checked non-NULL.
+    unsafe {
+        H::read_state(h, &|s| {
+            write_out(out, s.encoded_len());
+            PF_OK
+        })
+    }
+}
+
+/// The body of every `pf_*_save`: encodes the state of `h` into `out`
+/// (capacity `cap`) and its length into `*written`, or writes nothing.
+///
+/// # Safety
+/// `h` NULL or a live handle; `out` NULL or valid for `cap` bytes;
+/// `written` NULL or valid for one `size_t`.
+pub(crate) unsafe fn save<H: StateHandle>(
+    h: *const H,
     out: *mut u8,
     cap: usize,
     written: *mut usize,
-    len: usize,
-    save: impl FnOnce(&mut [u8]) -> Result<usize, StateError>,
 ) -> pf_status {
+    if out.is_null() || written.is_null() {
+        return PF_ERR_NULL_POINTER;
+    }
+    // SAFETY: forwarded contract; outputs checked non-NULL.
+    unsafe { H::read_state(h, &|s| save_checked(out, cap, written, s)) }
+}
+
+/// Writes the encoding of `s` into the caller buffer and its length to
+/// `written`.
+///
+/// # Safety
+/// `out` non-NULL and valid for `cap` bytes; `written` non-NULL, writable.
+unsafe fn save_checked(out: *mut u8, cap: usize, written: *mut usize, s: &dyn Saves) -> pf_status {
+    let len = s.encoded_len();
     if cap < len {
         return PF_ERR_STATE_BUFFER_TOO_SMALL;
     }
     // Encode into a stack buffer first, so `out` is written only on success.
     let mut tmp = [0u8; PF_STATE_MAX_LEN];
-    match save(&mut tmp[..len]) {
+    match s.save_into(&mut tmp[..len]) {
         Ok(n) => {
             // SAFETY: `n <= len <= cap`; `out` valid for `cap` bytes.
             unsafe {
@@ -108,6 +288,24 @@ pub(crate) unsafe fn save_with(
         }
         Err(e) => state_err(e),
     }
+}
+
+/// The body of every `pf_*_restore`: replaces the state of `h` by the
+/// state saved in `bytes` (`len` bytes), or leaves it unchanged.
+///
+/// # Safety
+/// `h` NULL or a live handle; `bytes` NULL or valid for `len` bytes.
+pub(crate) unsafe fn restore<H: StateHandle>(h: *mut H, bytes: *const u8, len: usize) -> pf_status {
+    if h.is_null() {
+        return PF_ERR_NULL_POINTER;
+    }
+    // SAFETY: forwarded contract.
+    let b = match unsafe { slice_in_bytes(bytes, len) } {
+        Ok(b) => b,
+        Err(e) => return e,
+    };
+    // SAFETY: forwarded contract.
+    unsafe { H::write_state(h, &|s| s.restore_from(b)) }
 }
 
 /// Stores the number of bytes `pf_line_save` writes for `line` in `*out`
@@ -122,23 +320,8 @@ pub unsafe extern "C" fn pf_line_state_len(
     line: *const crate::pf_line,
     out: *mut usize,
 ) -> pf_status {
-    if out.is_null() {
-        return PF_ERR_NULL_POINTER;
-    }
-    let mut tier = 0u32;
     // SAFETY: forwarded contract.
-    let s = unsafe { crate::line::pf_line_tier(line, &mut tier) };
-    if s != PF_OK {
-        return s;
-    }
-    let n = if tier == crate::line::PF_TIER_FULL {
-        PF_STATE_LINE_FULL_LEN
-    } else {
-        PF_STATE_LINE_LEAN_LEN
-    };
-    // SAFETY: `out` non-NULL, writable by the contract.
-    unsafe { write_out(out, n) };
-    PF_OK
+    unsafe { state_len(line, out) }
 }
 
 /// Saves the state of `line` into `out` (capacity `cap` bytes) and stores
@@ -160,17 +343,8 @@ pub unsafe extern "C" fn pf_line_save(
     cap: usize,
     written: *mut usize,
 ) -> pf_status {
-    if out.is_null() || written.is_null() {
-        return PF_ERR_NULL_POINTER;
-    }
-    // SAFETY: forwarded contract; outputs checked non-NULL.
-    unsafe {
-        crate::line::with_either(
-            line,
-            |a| save_with(out, cap, written, a.encoded_len(), |b| a.save_into(b)),
-            |a| save_with(out, cap, written, a.encoded_len(), |b| a.save_into(b)),
-        )
-    }
+    // SAFETY: forwarded contract.
+    unsafe { save(line, out, cap, written) }
 }
 
 /// Replaces the state of `line` by the state saved in `bytes` (`len`
@@ -190,34 +364,8 @@ pub unsafe extern "C" fn pf_line_restore(
     bytes: *const u8,
     len: usize,
 ) -> pf_status {
-    if line.is_null() {
-        return PF_ERR_NULL_POINTER;
-    }
     // SAFETY: forwarded contract.
-    let b = match unsafe { slice_in_bytes(bytes, len) } {
-        Ok(b) => b,
-        Err(e) => return e,
-    };
-    // SAFETY: forwarded contract.
-    unsafe {
-        crate::line::with_either_mut(
-            line,
-            |a| match LeanMoments::restore(b) {
-                Ok(v) => {
-                    *a = v;
-                    PF_OK
-                }
-                Err(e) => state_err(e),
-            },
-            |a| match FullMoments::restore(b) {
-                Ok(v) => {
-                    *a = v;
-                    PF_OK
-                }
-                Err(e) => state_err(e),
-            },
-        )
-    }
+    unsafe { restore(line, bytes, len) }
 }
 
 /// Stores the number of bytes `pf_model_save` writes for `m` in `*out`.
@@ -231,16 +379,8 @@ pub unsafe extern "C" fn pf_model_state_len(
     m: *const crate::pf_model,
     out: *mut usize,
 ) -> pf_status {
-    if out.is_null() {
-        return PF_ERR_NULL_POINTER;
-    }
-    // SAFETY: forwarded contract; `out` checked.
-    unsafe {
-        crate::model::with_core(m, |c| {
-            write_out(out, c.encoded_len());
-            PF_OK
-        })
-    }
+    // SAFETY: forwarded contract.
+    unsafe { state_len(m, out) }
 }
 
 /// Saves the state of `m` into `out` (capacity `cap` bytes) and stores the
@@ -260,15 +400,8 @@ pub unsafe extern "C" fn pf_model_save(
     cap: usize,
     written: *mut usize,
 ) -> pf_status {
-    if out.is_null() || written.is_null() {
-        return PF_ERR_NULL_POINTER;
-    }
-    // SAFETY: forwarded contract; outputs checked.
-    unsafe {
-        crate::model::with_core(m, |c| {
-            save_with(out, cap, written, c.encoded_len(), |b| c.save_into(b))
-        })
-    }
+    // SAFETY: forwarded contract.
+    unsafe { save(m, out, cap, written) }
 }
 
 /// Replaces the state of `m` by a saved model state with the same number
@@ -288,41 +421,8 @@ pub unsafe extern "C" fn pf_model_restore(
     bytes: *const u8,
     len: usize,
 ) -> pf_status {
-    if m.is_null() {
-        return PF_ERR_NULL_POINTER;
-    }
     // SAFETY: forwarded contract.
-    let b = match unsafe { slice_in_bytes(bytes, len) } {
-        Ok(b) => b,
-        Err(e) => return e,
-    };
-    // SAFETY: forwarded contract.
-    unsafe {
-        crate::model::with_state_mut(m, |params, s| {
-            let info = match state::peek(b) {
-                Ok(i) => i,
-                Err(e) => return state_err(e),
-            };
-            if info.kind == StateKind::Model && info.params as usize != params {
-                return from_code(
-                    pf_core::model::ModelError::DimensionMismatch {
-                        expected: params,
-                        found: info.params as usize,
-                    }
-                    .code(),
-                );
-            }
-            // Restore into a copy: the handle changes only on success.
-            let mut tmp = [0.0f64; storage_len(MAX_PARAMS)];
-            match ModelCore::restore_in(&mut tmp[..s.len()], b) {
-                Ok(_) => {
-                    s.copy_from_slice(&tmp[..s.len()]);
-                    PF_OK
-                }
-                Err(e) => state_err(e),
-            }
-        })
-    }
+    unsafe { restore(m, bytes, len) }
 }
 
 /// Checks the header, exact length and checksum of a saved state of `len`
