@@ -49,6 +49,12 @@ pub const PENDING_BLOCK: usize = 256;
 /// one set measured 1.5 times slower per push.
 const PEND_LANES: usize = 4;
 
+/// Step of `pend_at` per pair: `pend_at & PEND_ROW_MASK` is then the first
+/// stage row of the pair's position set.
+const PEND_STEP: i32 = 2;
+/// See [`PEND_STEP`].
+const PEND_ROW_MASK: i32 = 2 * PEND_LANES as i32 - 2;
+
 /// Bound on `|d|` and `|e|` of a pair entering the pending block and on
 /// the state's means (2^300).
 const PEND_LIMIT: f64 = 2.037035976334486e90;
@@ -68,12 +74,15 @@ const PEND_BIG: f64 = 1.0715086071862673e301;
 // to the state's moments (`Σd² = S_block + n·d̄²`, and the merge adds
 // exactly those two parts), as in a one-pair centred update.
 //
-// Storage: `pend_len` pairs, and the sums in the stage array, which is
+// Storage: `pend_len()` pairs, and the sums in the stage array, which is
 // empty once the frame is fitted: position set `i` (the block's pairs at
 // positions `≡ i (mod PEND_LANES)`) in rows `2i` and `2i + 1` as
 // `[Σd, Σe, Σd²]`, `[Σd·e, Σe², 0]`. Separate sets keep the adds through
 // memory from forming one dependency chain across pushes. All zero when
-// `pend_len == 0`.
+// `pend_len() == 0`. The length is kept as `pend_open` and `pend_at`, a
+// negative step count while the block has room, so a push tests one sign
+// and reads its set's row off the same word (a `u16` length cost two
+// widenings, an offset compare and a modulo each push).
 //
 // The block opens only on a state whose sums and means are within
 // `PEND_BIG` and `PEND_LIMIT` (and `|b0| <= PEND_SLOPE`), and takes only
@@ -271,9 +280,12 @@ pub struct PairMoments<T: Tier> {
     /// after, the pending block's sums (see the pending-block notes).
     pub(crate) stage: [[f64; 3]; STAGE],
     pub(crate) stage_len: u8,
-    /// Pairs in the pending block (lean tier only, framed; its sums are
-    /// in `stage`). Every query folds them on a copy.
-    pub(crate) pend_len: u16,
+    /// A pending block is open (lean tier only, framed; its sums are in
+    /// `stage`). Every query folds it on a copy.
+    pub(crate) pend_open: bool,
+    /// While the block is open and has room, `PEND_STEP · (k − PENDING_BLOCK)`
+    /// for its `k` pairs (negative); 0 otherwise. See [`Self::pend_len`].
+    pub(crate) pend_at: i32,
     pub(crate) hi: <T as sealed::Sealed>::Extra,
 }
 
@@ -408,7 +420,8 @@ impl<T: Tier> PairMoments<T> {
             svv: 0.0,
             stage: [[0.0; 3]; STAGE],
             stage_len: 0,
-            pend_len: 0,
+            pend_open: false,
+            pend_at: 0,
             hi: <<T as sealed::Sealed>::Extra as ConstDefault>::DEFAULT,
         }
     }
@@ -425,24 +438,25 @@ impl<T: Tier> PairMoments<T> {
             check_pair(x, y, 0)?;
             return self.push_checked(x, y, 1.0);
         }
-        let k = self.pend_len;
+        let at = self.pend_at;
         // An open block with room: the state was checked when the block
         // opened and does not change while it is open, so only the pair is
         // checked here. The sums are independent adds, not a chain through
         // the means.
-        if k.wrapping_sub(1) < PENDING_BLOCK as u16 - 1 {
+        if at < 0 {
             let (d, e) = self.pending_offsets(x, y);
             let (dd, de, ee) = (d * d, d * e, e * e);
             // `d² + e² <= 2^600` implies `|d|, |e| <= 2^300`; NaN,
             // infinities and squares that overflow all fail it.
             if dd + ee <= PEND_LIMIT_SQ {
-                let i = 2 * (k as usize % PEND_LANES);
+                // `2 · (k mod PEND_LANES)`, the set's first row.
+                let i = (at & PEND_ROW_MASK) as usize;
                 self.stage[i][0] += d;
                 self.stage[i][1] += e;
                 self.stage[i][2] += dd;
                 self.stage[i + 1][0] += de;
                 self.stage[i + 1][1] += ee;
-                self.pend_len = k + 1;
+                self.pend_at = at + PEND_STEP;
                 return Ok(());
             }
         }
@@ -454,7 +468,7 @@ impl<T: Tier> PairMoments<T> {
     #[inline(never)]
     fn push_other(&mut self, x: f64, y: f64) -> Result<(), MomentsError> {
         check_pair(x, y, 0)?;
-        if self.pend_len == 0 {
+        if !self.pend_open {
             if self.try_open(x, y) {
                 return Ok(());
             }
@@ -469,6 +483,25 @@ impl<T: Tier> PairMoments<T> {
         Ok(())
     }
 
+    /// Pairs in the pending block, 0 to [`PENDING_BLOCK`].
+    #[inline]
+    pub(crate) fn pend_len(&self) -> u16 {
+        if self.pend_open {
+            (PENDING_BLOCK as i32 + self.pend_at / PEND_STEP) as u16
+        } else {
+            0
+        }
+    }
+
+    /// Sets the pending block's length (its sums are set apart).
+    #[inline]
+    pub(crate) fn set_pend_len(&mut self, k: u16) {
+        let k = k as i32;
+        let room = (k - PENDING_BLOCK as i32) * PEND_STEP;
+        self.pend_open = k > 0;
+        self.pend_at = if k > 0 && room < 0 { room } else { 0 };
+    }
+
     /// `(d, e)` of a pair: its offsets in the frame from the means.
     #[inline(always)]
     fn pending_offsets(&self, x: f64, y: f64) -> (f64, f64) {
@@ -481,7 +514,7 @@ impl<T: Tier> PairMoments<T> {
     /// and the pair are within the pending-block bounds; `false` (nothing
     /// changed) otherwise.
     fn try_open(&mut self, x: f64, y: f64) -> bool {
-        if T::IS_FULL || !self.framed || self.slope_free || self.pend_len != 0 {
+        if T::IS_FULL || !self.framed || self.slope_free || self.pend_open {
             return false;
         }
         if !self.state_in_pending_bounds() {
@@ -495,7 +528,7 @@ impl<T: Tier> PairMoments<T> {
         // The stage is empty (all zero) in a framed state.
         self.stage[0] = [d, e, dd];
         self.stage[1] = [de, ee, 0.0];
-        self.pend_len = 1;
+        self.set_pend_len(1);
         true
     }
 
@@ -531,7 +564,7 @@ impl<T: Tier> PairMoments<T> {
     /// `d² + e² <= PEND_LIMIT²`, so within `2m` times the one-pair bounds
     /// (room for the rounding of the sums). Then the fold cannot overflow.
     pub(crate) fn pending_in_bounds(&self) -> bool {
-        let k = self.pend_len as usize;
+        let k = self.pend_len() as usize;
         if k == 0 {
             return self.stage.iter().flatten().all(|&v| v == 0.0);
         }
@@ -562,7 +595,7 @@ impl<T: Tier> PairMoments<T> {
     /// merged as any chunk is (Chan–Golub–LeVeque). Atomic; cannot fail
     /// for a block that kept the pending-block bounds.
     pub(crate) fn fold_pending(&mut self) -> Result<(), MomentsError> {
-        let k = self.pend_len;
+        let k = self.pend_len();
         if k == 0 {
             return Ok(());
         }
@@ -597,7 +630,7 @@ impl<T: Tier> PairMoments<T> {
         self.svv = svv;
         self.count = count;
         self.stage = [[0.0; 3]; STAGE];
-        self.pend_len = 0;
+        self.set_pend_len(0);
         Ok(())
     }
 
@@ -618,7 +651,7 @@ impl<T: Tier> PairMoments<T> {
     }
 
     fn push_checked(&mut self, x: f64, y: f64, w: f64) -> Result<(), MomentsError> {
-        if self.pend_len > 0 {
+        if self.pend_open {
             // Earlier pushes come first.
             let mut t = *self;
             t.fold_pending()?;
@@ -1191,7 +1224,7 @@ impl<T: Tier> PairMoments<T> {
 
     /// Number of pairs added (forgetting does not change it).
     pub fn count(&self) -> u64 {
-        self.count + self.stage_len as u64 + self.pend_len as u64
+        self.count + self.stage_len as u64 + self.pend_len() as u64
     }
 
     /// Whether no pair has been added.

@@ -847,7 +847,7 @@ impl<T: StateTier> PairMoments<T> {
                     flags |= bit;
                 }
             }
-            let pend = self.pend_len.to_le_bytes();
+            let pend = self.pend_len().to_le_bytes();
             w.bytes(&[flags, self.stage_len, pend[0], pend[1], 0, 0, 0, 0]);
             for v in [
                 self.w, self.w2, self.x0, self.y0, self.b0, self.mx, self.mv, self.sxx, self.sxv,
@@ -923,7 +923,7 @@ impl<T: StateTier> PairMoments<T> {
             pend_len as usize <= PENDING_BLOCK && (a.framed || pend_len == 0),
             StateField::Pending,
         )?;
-        a.pend_len = pend_len;
+        a.set_pend_len(pend_len);
         check_base(&a)?;
         T::get_extra(&mut a, &r.b[r.at..])?;
         Ok(a)
