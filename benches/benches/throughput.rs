@@ -1,13 +1,14 @@
 //! Criterion benches: push (both tiers), extend (both tiers) at n = 10³…10⁷,
 //! merge, and the model accumulator for p = 2, 4, 8, 12. Each extend group
-//! also measures the read ceiling at the same n, so criterion's throughput
-//! figures can be read as ratios. For a one-screen table use the
+//! also measures every plain read loop at the same n (the read ceiling is
+//! the fastest of them), so criterion's throughput figures can be read as
+//! ratios. For a one-screen table use the
 //! `speed-report` binary instead.
 
 use criterion::{criterion_group, criterion_main, BenchmarkId, Criterion, Throughput};
 use plumbfit::model::ModelMoments;
 use plumbfit::{FullMoments, LeanMoments, PairMoments, Tier};
-use plumbfit_benches::{model_rows, offset_pairs, read_ceiling};
+use plumbfit_benches::{model_rows, offset_pairs, read_ceiling, read_loops};
 use std::hint::black_box;
 
 fn extend<T: Tier>(xs: &[f64], ys: &[f64]) -> PairMoments<T> {
@@ -23,9 +24,13 @@ fn bench_extend(c: &mut Criterion) {
     for n in [1_000usize, 10_000, 100_000, 1_000_000, 10_000_000] {
         let (xs, ys) = offset_pairs(n, 7);
         g.throughput(Throughput::Elements(n as u64));
-        g.bench_with_input(BenchmarkId::new("read_ceiling", n), &n, |b, _| {
-            b.iter(|| read_ceiling(black_box(&xs), black_box(&ys)))
-        });
+        // The read ceiling is the fastest of these plain read loops.
+        for l in read_loops() {
+            let id = format!("read_ceiling/{}", l.name);
+            g.bench_with_input(BenchmarkId::new(id, n), &n, |b, _| {
+                b.iter(|| (l.run)(black_box(&xs), black_box(&ys)))
+            });
+        }
         g.bench_with_input(BenchmarkId::new("lean", n), &n, |b, _| {
             b.iter(|| extend::<plumbfit::Lean>(black_box(&xs), black_box(&ys)))
         });

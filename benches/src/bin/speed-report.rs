@@ -5,13 +5,22 @@
 //!
 //! `--quick` shortens every measurement (a smoke run); `--only NAME` runs
 //! one section (`extend`, `push`, `merge`, `model`) beside the ceiling.
+//!
+//! The read ceiling at each size is the fastest of the plain read loops of
+//! `plumbfit_benches::read_loops`, timed in the same interleaved rounds as
+//! the kernels; the report names the loop that won. When the AVX-512
+//! kernels are selected, the extend section also times lean and full
+//! extend with the AVX kernels (capped through `plumbfit_kernels::
+//! limit_kernels`) and prints the gain. `PLUMBFIT_KERNELS=avx` (or
+//! `scalar`) runs the whole report on that path.
 
 use plumbfit::model::ModelMoments;
 use plumbfit::{FullMoments, LeanMoments, PairMoments, Tier};
 use plumbfit_benches::{
     ceiling_rate, interleaved_best, load_average, model_rows, offset_pairs, rate, ratio_cell,
-    read_ceiling,
+    read_loops,
 };
+use plumbfit_kernels::{limit_kernels, selected, KernelSet};
 use std::hint::black_box;
 
 struct Row {
@@ -26,6 +35,16 @@ fn extend_once<T: Tier>(xs: &[f64], ys: &[f64]) -> bool {
     let mut a = PairMoments::<T>::new();
     let ok = a.extend(black_box(xs), black_box(ys)).is_ok();
     black_box(&a);
+    ok
+}
+
+/// [`extend_once`] with the kernel set capped at `cap` for the call (the
+/// selection before is restored after it).
+fn extend_capped<T: Tier>(cap: KernelSet, xs: &[f64], ys: &[f64]) -> bool {
+    let before = selected();
+    limit_kernels(Some(cap));
+    let ok = extend_once::<T>(xs, ys);
+    limit_kernels(Some(before));
     ok
 }
 
@@ -57,6 +76,10 @@ fn main() {
         &[1_000, 10_000, 100_000, 1_000_000, 10_000_000]
     };
     let mut ceiling_at = Vec::new();
+    let mut ceiling_loop = Vec::new();
+    // With AVX-512 selected, the extend section also times the AVX kernels
+    // (interleaved, same data) so the gain is measured in the same run.
+    let compare_avx = selected() == KernelSet::Avx512 && KernelSet::Avx.supported();
     // Refused calls inside the timed closures (figures would be invalid).
     let refused = std::cell::Cell::new(0usize);
     let bump = |k: usize| refused.set(refused.get() + k);
@@ -69,17 +92,35 @@ fn main() {
         // scheduler slice on a busy machine, where a 1e6 call rarely does.
         let push_here = (n == 1_000_000 || n == 100_000) && on("push");
         let ws: Vec<f64> = (0..n).map(|i| 1.0 + (i % 3) as f64).collect();
-        let mut ceil_f = || {
-            black_box(read_ceiling(black_box(&xs), black_box(&ys)));
-        };
+        // The read ceiling: every plain read loop, the fastest counts.
+        let loops = read_loops();
+        let mut ceil_fs: Vec<Box<dyn FnMut()>> = loops
+            .iter()
+            .map(|l| {
+                let (run, xs, ys) = (l.run, &xs, &ys);
+                Box::new(move || {
+                    black_box(run(black_box(xs), black_box(ys)));
+                }) as Box<dyn FnMut()>
+            })
+            .collect();
         let mut lean_f = || bump(!extend_once::<plumbfit::Lean>(&xs, &ys) as usize);
         let mut full_f = || bump(!extend_once::<plumbfit::Full>(&xs, &ys) as usize);
-        let mut names: Vec<&str> = vec!["read ceiling (sum of both arrays)"];
-        let mut fs: Vec<&mut dyn FnMut()> = vec![&mut ceil_f];
+        let mut lean_avx_f =
+            || bump(!extend_capped::<plumbfit::Lean>(KernelSet::Avx, &xs, &ys) as usize);
+        let mut full_avx_f =
+            || bump(!extend_capped::<plumbfit::Full>(KernelSet::Avx, &xs, &ys) as usize);
+        let mut names: Vec<&str> = Vec::new();
+        let mut fs: Vec<&mut dyn FnMut()> = ceil_fs.iter_mut().map(|f| &mut **f as _).collect();
+        let nc = fs.len();
         if on("extend") {
             names.extend(["lean extend", "full extend"]);
             fs.push(&mut lean_f);
             fs.push(&mut full_f);
+            if compare_avx {
+                names.extend(["lean extend, avx kernels", "full extend, avx kernels"]);
+                fs.push(&mut lean_avx_f);
+                fs.push(&mut full_avx_f);
+            }
         }
         let mut weighted_f = || {
             let mut a = LeanMoments::new();
@@ -98,13 +139,26 @@ fn main() {
             fs.push(&mut lean_push_f);
             fs.push(&mut full_push_f);
         }
-        if fs.len() == 1 {
+        if fs.len() == nc {
             continue;
         }
         let best = interleaved_best(budget * fs.len() as f64, 5, &mut fs);
-        let ceil = n as f64 / best[0];
+        let (k, t_ceil) = best[..nc]
+            .iter()
+            .enumerate()
+            .min_by(|a, b| a.1.total_cmp(b.1))
+            .map_or((0, f64::INFINITY), |(k, t)| (k, *t));
+        let ceil = n as f64 / t_ceil;
         ceiling_at.push((n, ceil));
-        for (name, t) in names.iter().zip(&best) {
+        ceiling_loop.push((n, loops[k].name));
+        rows.push(Row {
+            what: "read ceiling (sum of both arrays)".into(),
+            n,
+            rate: ceil,
+            unit: "pairs/s",
+            ratio: Some(1.0),
+        });
+        for (name, t) in names.iter().zip(&best[nc..]) {
             let r = n as f64 / t;
             rows.push(Row {
                 what: (*name).into(),
@@ -200,8 +254,14 @@ fn main() {
         std::thread::available_parallelism().map_or(0, |n| n.get())
     );
     println!(
-        "simd kernels: {}",
-        plumbfit_kernels::active().unwrap_or("none (scalar kernels)")
+        "simd kernels: {} (best supported: {}; cap with {}=avx512|avx|scalar)",
+        plumbfit_kernels::active().unwrap_or("none (scalar kernels)"),
+        KernelSet::ALL
+            .into_iter()
+            .rev()
+            .find(|k| k.supported())
+            .map_or("scalar", KernelSet::name),
+        plumbfit_kernels::KERNELS_ENV,
     );
     println!();
     println!(
@@ -223,6 +283,17 @@ fn main() {
             ratio
         );
     }
+    if !ceiling_loop.is_empty() {
+        let per_n: Vec<String> = ceiling_loop
+            .iter()
+            .map(|(n, name)| format!("{n}: {name}"))
+            .collect();
+        println!(
+            "read ceiling: fastest of {} plain read loops at each n ({})",
+            read_loops().len(),
+            per_n.join("; ")
+        );
+    }
     if on("model") {
         println!(
             "model ratios: f64 values read per second against the read ceiling at n = {ceil_n} ({:.1} M pairs/s)",
@@ -235,6 +306,24 @@ fn main() {
             .find(|r| r.what == what && r.n == n)
             .and_then(|r| Some((r.rate, r.ratio.filter(|v| v.is_finite())?)))
     };
+    if compare_avx && on("extend") {
+        println!("avx-512 gain (rate with avx512 kernels / rate with avx kernels, same run):");
+        println!("| {:>10} | {:>9} | {:>9} |", "n", "lean", "full");
+        println!("|{:-<12}|{:-<11}|{:-<11}|", "", "", "");
+        for &n in sizes {
+            let gain = |tier: &str| {
+                let fast = find(&format!("{tier} extend"), n)?.0;
+                let avx = find(&format!("{tier} extend, avx kernels"), n)?.0;
+                Some(fast / avx)
+            };
+            println!(
+                "| {n:>10} | {:>9} | {:>9} |",
+                ratio_cell(gain("lean")),
+                ratio_cell(gain("full"))
+            );
+        }
+        println!();
+    }
     let big = *sizes.last().unwrap_or(&0);
     let pn = if quick { 100_000 } else { 1_000_000 };
     let checks = [
