@@ -627,7 +627,9 @@ mod tests {
             .collect();
         // Every length up to 70 (every remainder of the 4-, 8- and
         // 16-pair blocks, several times), lengths around the 512-pair
-        // pieces of the AVX second pass and a whole chunk.
+        // pieces of the AVX second pass, a whole chunk, and lengths past
+        // it (where the AVX-512 kernel re-reads the pairs in pass 2
+        // instead of keeping pass 1's values).
         let more = [
             127,
             128,
@@ -639,6 +641,8 @@ mod tests {
             1027,
             LONG_CHUNK - 1,
             LONG_CHUNK,
+            LONG_CHUNK + 1,
+            2 * LONG_CHUNK + 5,
         ];
         let lengths: Vec<usize> = (1..=70).chain(more).collect();
         let mut checked = 0;

@@ -20,6 +20,12 @@ use std::arch::x86_64::*;
 /// AVX kernels (about 1 KiB per array).
 const AHEAD: usize = 128;
 
+/// The lean kernel's prefetch distance (values, 2 KiB per array),
+/// chosen by measurement: on an Intel Xeon (KVM) at 10⁷ pairs the kernel
+/// alone reached 0.93–0.96 of the read ceiling with 256, 0.83–0.89 with
+/// 128 and about 0.90 with 512.
+const LEAN_AHEAD: usize = 256;
+
 /// Hint that `s[i..]` (or the memory just past `s`) will be read soon.
 #[inline]
 #[target_feature(enable = "avx512f")]
@@ -128,8 +134,8 @@ pub(super) fn shifted(xs: &[f64], ys: &[f64], xc: f64, yc: f64, b0: f64) -> Shif
     let mut s = [_mm512_setzero_pd(); 5];
     let mut i = 0;
     while i < body {
-        prefetch(xs, i + AHEAD);
-        prefetch(ys, i + AHEAD);
+        prefetch(xs, i + LEAN_AHEAD);
+        prefetch(ys, i + LEAN_AHEAD);
         let (x, y) = (load(xs, i), load(ys, i));
         let dx = _mm512_sub_pd(x, vxc);
         let v = _mm512_sub_pd(_mm512_sub_pd(y, vyc), _mm512_mul_pd(vb, dx));

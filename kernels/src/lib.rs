@@ -382,6 +382,12 @@ mod avx {
     /// loop has arithmetic between its loads.
     const AHEAD: usize = 128;
 
+    /// The lean kernel's prefetch distance (values, 2 KiB per array),
+    /// chosen by measurement: on an Intel Xeon (KVM) at 10⁷ pairs the kernel
+    /// alone reached 0.93–0.96 of the read ceiling with 256, 0.83–0.89 with
+    /// 128 and about 0.90 with 512.
+    const LEAN_AHEAD: usize = 256;
+
     /// Hint that `s[i..]` (or the memory just past `s`) will be read soon.
     #[inline]
     #[target_feature(enable = "avx")]
@@ -401,8 +407,8 @@ mod avx {
         let (mut sx, mut sv, mut sxx, mut sxv, mut svv) = ([z; 2], [z; 2], [z; 2], [z; 2], [z; 2]);
         let mut i = 0;
         while i < body {
-            prefetch(xs, i + AHEAD);
-            prefetch(ys, i + AHEAD);
+            prefetch(xs, i + LEAN_AHEAD);
+            prefetch(ys, i + LEAN_AHEAD);
             for h in 0..2 {
                 let x = load(xs, i + 4 * h);
                 let y = load(ys, i + 4 * h);
