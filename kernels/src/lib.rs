@@ -771,3 +771,91 @@ mod avx {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn names_round_trip() {
+        for k in KernelSet::ALL {
+            assert_eq!(KernelSet::from_name(k.name()), Some(k));
+        }
+        assert_eq!(KernelSet::from_name("AVX"), None);
+        assert_eq!(KernelSet::from_name(""), None);
+    }
+
+    #[test]
+    fn cap_selects_the_best_supported_set_up_to_it() {
+        // The only test in this crate that changes the cap.
+        let (xs, ys) = ([1.0, 2.0, 4.0], [3.0, 5.0, 9.0]);
+        for cap in KernelSet::ALL {
+            let want = KernelSet::ALL
+                .into_iter()
+                .rev()
+                .find(|k| *k <= cap && k.supported())
+                .unwrap_or(KernelSet::Scalar);
+            assert_eq!(limit_kernels(Some(cap)), want);
+            assert_eq!(selected(), want);
+            let simd = shifted_sums(&xs, &ys, 1.0, 3.0, 2.0).is_some();
+            assert_eq!(simd, want != KernelSet::Scalar, "{cap:?}");
+            assert_eq!(active(), simd.then(|| want.name()));
+        }
+        let best = limit_kernels(None);
+        assert!(best.supported());
+        assert!(KernelSet::ALL.iter().all(|k| !k.supported() || *k <= best));
+    }
+
+    #[test]
+    fn unsupported_or_scalar_sets_return_none() {
+        let (xs, ys) = ([1.0; 9], [2.0; 9]);
+        for k in KernelSet::ALL {
+            let on = k != KernelSet::Scalar && k.supported();
+            assert_eq!(shifted_sums_with(k, &xs, &ys, 0.0, 0.0, 1.0).is_some(), on);
+            assert_eq!(
+                full_sums_with(k, &xs, &ys, 0.0, 0.0, 1.0, false).is_some(),
+                on
+            );
+        }
+    }
+
+    #[test]
+    fn simd_sets_agree_bit_for_bit() {
+        // AVX and AVX-512 against each other on offset data (the scalar
+        // mirror lives in `plumbfit`, whose kernel tests compare every set
+        // with it); tolerance 0.
+        let sets: Vec<KernelSet> = KernelSet::ALL
+            .into_iter()
+            .filter(|k| *k != KernelSet::Scalar && k.supported())
+            .collect();
+        if sets.len() < 2 {
+            return; // Nothing to compare on this CPU.
+        }
+        let mut s = 5u64;
+        let mut next = move || {
+            s = s.wrapping_mul(6364136223846793005).wrapping_add(1);
+            (s >> 11) as f64 / (1u64 << 53) as f64 - 0.5
+        };
+        let xs: Vec<f64> = (0..5000).map(|_| 1e9 + 100.0 * next()).collect();
+        let ys: Vec<f64> = xs.iter().map(|x| 2.5 * x + 0.1 * next()).collect();
+        for n in (1..=40).chain([255, 256, 257, 4095, 4096, 4097, 5000]) {
+            let (x, y) = (&xs[..n], &ys[..n]);
+            for b0 in [0.0, 2.5, -0.75] {
+                // Debug text tells −0 from +0, which `==` does not.
+                let f = |k| {
+                    format!(
+                        "{:?}",
+                        (
+                            shifted_sums_with(k, x, y, x[0], y[0], b0),
+                            full_sums_with(k, x, y, x[0], y[0], b0, n == 4096),
+                        )
+                    )
+                };
+                let first = f(sets[0]);
+                for &k in &sets[1..] {
+                    assert_eq!(f(k), first, "{k:?} n = {n} b0 = {b0}");
+                }
+            }
+        }
+    }
+}
