@@ -49,11 +49,20 @@ pub const PENDING_BLOCK: usize = 256;
 /// one set measured 1.5 times slower per push.
 const PEND_LANES: usize = 4;
 
-/// Step of `pend_at` per pair: `pend_at & PEND_ROW_MASK` is then the first
-/// stage row of the pair's position set.
-const PEND_STEP: i32 = 2;
+/// Step of `pend_at` per pair: `pend_at & PEND_SET_MASK` is then 8 times
+/// the pair's position set, which addresses its sums with no more
+/// arithmetic (see [`pend_slots`]).
+const PEND_STEP: isize = 8;
 /// See [`PEND_STEP`].
-const PEND_ROW_MASK: i32 = 2 * PEND_LANES as i32 - 2;
+const PEND_SET_MASK: isize = PEND_STEP * (PEND_LANES as isize - 1);
+
+/// Slots, in the flattened stage, of position set `i`'s
+/// `[Σd, Σe, Σd², Σd·e, Σe²]` (see the pending-block notes).
+#[inline(always)]
+pub(crate) const fn pend_slots(i: usize) -> [usize; 5] {
+    let (a, b) = (2 * i, 2 * PEND_LANES + 2 * i);
+    [a, a + 1, b, b + 1, 4 * PEND_LANES + 2 * i]
+}
 
 /// Bound on `|d|` and `|e|` of a pair entering the pending block and on
 /// the state's means (2^300).
@@ -75,21 +84,29 @@ const PEND_BIG: f64 = 1.0715086071862673e301;
 // exactly those two parts), as in a one-pair centred update.
 //
 // Storage: `pend_len()` pairs, and the sums in the stage array, which is
-// empty once the frame is fitted: position set `i` (the block's pairs at
-// positions `≡ i (mod PEND_LANES)`) in rows `2i` and `2i + 1` as
-// `[Σd, Σe, Σd²]`, `[Σd·e, Σe², 0]`. Separate sets keep the adds through
+// empty once the frame is fitted. Position set `i` (the block's pairs at
+// positions `≡ i (mod PEND_LANES)`) is at the flattened slots
+// `pend_slots(i)`: `[Σd, Σe]` at `2i`, `[Σd², Σd·e]` at `2·PEND_LANES + 2i`,
+// `Σe²` at `4·PEND_LANES + 2i` (the slot after it stays 0). With
+// `r = 8i` every sum of the set is at byte offset `2r` plus a constant, so
+// a push finds its set with one mask. Separate sets keep the adds through
 // memory from forming one dependency chain across pushes. All zero when
-// `pend_len() == 0`. The length is kept as `pend_open` and `pend_at`, a
+// `pend_len() == 0`. Saved bytes keep the version 2 rows
+// (`[Σd, Σe, Σd²]`, `[Σd·e, Σe², 0]` in rows `2i`, `2i + 1`; see
+// `saved_stage`). The length is kept as `pend_open` and `pend_at`, a
 // negative step count while the block has room, so a push tests one sign
-// and reads its set's row off the same word (a `u16` length cost two
-// widenings, an offset compare and a modulo each push).
+// and masks its set out of the same word (a `u16` length cost two
+// widenings, an offset compare and a modulo each push; rows of three
+// cost a multiply by 3 for the set's offset).
 //
 // The block opens only on a state whose sums and means are within
 // `PEND_BIG` and `PEND_LIMIT` (and `|b0| <= PEND_SLOPE`), and takes only
 // pairs with `d² + e² <= PEND_LIMIT²`. Then `Σd² <= 2^608` for at most
 // `PENDING_BLOCK` pairs and the fold's terms stay below 2^1001, so the
 // fold cannot overflow: every push into the block is final when it returns.
-const _: () = assert!(2 * PEND_LANES == STAGE && PENDING_BLOCK < u16::MAX as usize);
+const _: () = assert!(
+    2 * PEND_LANES == STAGE && 6 * PEND_LANES <= 3 * STAGE && PENDING_BLOCK < u16::MAX as usize
+);
 
 /// Errors from updating a pair-moment accumulator. The accumulator is left
 /// exactly as it was before the failing call.
@@ -285,7 +302,7 @@ pub struct PairMoments<T: Tier> {
     pub(crate) pend_open: bool,
     /// While the block is open and has room, `PEND_STEP · (k − PENDING_BLOCK)`
     /// for its `k` pairs (negative); 0 otherwise. See [`Self::pend_len`].
-    pub(crate) pend_at: i32,
+    pub(crate) pend_at: isize,
     pub(crate) hi: <T as sealed::Sealed>::Extra,
 }
 
@@ -449,13 +466,17 @@ impl<T: Tier> PairMoments<T> {
             // `d² + e² <= 2^600` implies `|d|, |e| <= 2^300`; NaN,
             // infinities and squares that overflow all fail it.
             if dd + ee <= PEND_LIMIT_SQ {
-                // `2 · (k mod PEND_LANES)`, the set's first row.
-                let i = (at & PEND_ROW_MASK) as usize;
-                self.stage[i][0] += d;
-                self.stage[i][1] += e;
-                self.stage[i][2] += dd;
-                self.stage[i + 1][0] += de;
-                self.stage[i + 1][1] += ee;
+                // `8 · (k mod PEND_LANES)`; the slots are `pend_slots(r / 8)`,
+                // written so every byte offset is `2r` plus a constant.
+                let r = (at & PEND_SET_MASK) as usize;
+                let a = r / 4;
+                let (b, c) = (2 * PEND_LANES + a, 4 * PEND_LANES + a);
+                let s = self.stage.as_flattened_mut();
+                s[a] += d;
+                s[a + 1] += e;
+                s[b] += dd;
+                s[b + 1] += de;
+                s[c] += ee;
                 self.pend_at = at + PEND_STEP;
                 return Ok(());
             }
@@ -465,6 +486,7 @@ impl<T: Tier> PairMoments<T> {
 
     /// The lean `push` outside an open block with room: opens a block
     /// (folding a full one first), or takes the general checked path.
+    #[cold]
     #[inline(never)]
     fn push_other(&mut self, x: f64, y: f64) -> Result<(), MomentsError> {
         check_pair(x, y, 0)?;
@@ -487,7 +509,7 @@ impl<T: Tier> PairMoments<T> {
     #[inline]
     pub(crate) fn pend_len(&self) -> u16 {
         if self.pend_open {
-            (PENDING_BLOCK as i32 + self.pend_at / PEND_STEP) as u16
+            (PENDING_BLOCK as isize + self.pend_at / PEND_STEP) as u16
         } else {
             0
         }
@@ -496,8 +518,8 @@ impl<T: Tier> PairMoments<T> {
     /// Sets the pending block's length (its sums are set apart).
     #[inline]
     pub(crate) fn set_pend_len(&mut self, k: u16) {
-        let k = k as i32;
-        let room = (k - PENDING_BLOCK as i32) * PEND_STEP;
+        let k = k as isize;
+        let room = (k - PENDING_BLOCK as isize) * PEND_STEP;
         self.pend_open = k > 0;
         self.pend_at = if k > 0 && room < 0 { room } else { 0 };
     }
@@ -526,8 +548,7 @@ impl<T: Tier> PairMoments<T> {
             return false;
         }
         // The stage is empty (all zero) in a framed state.
-        self.stage[0] = [d, e, dd];
-        self.stage[1] = [de, ee, 0.0];
+        self.set_pending_set(0, [d, e, dd, de, ee]);
         self.set_pend_len(1);
         true
     }
@@ -549,13 +570,60 @@ impl<T: Tier> PairMoments<T> {
     /// added in order.
     pub(crate) fn pending_sums(&self) -> [f64; 5] {
         let mut t = [0.0; 5];
-        for r in self.stage.chunks_exact(2) {
-            let set = [r[0][0], r[0][1], r[0][2], r[1][0], r[1][1]];
-            for (t, v) in t.iter_mut().zip(set) {
+        for i in 0..PEND_LANES {
+            for (t, v) in t.iter_mut().zip(self.pending_set(i)) {
                 *t += v;
             }
         }
         t
+    }
+
+    /// Position set `i`'s `[Σd, Σe, Σd², Σd·e, Σe²]`.
+    pub(crate) fn pending_set(&self, i: usize) -> [f64; 5] {
+        let s = self.stage.as_flattened();
+        pend_slots(i).map(|j| s[j])
+    }
+
+    /// The stage as saved: the raw staged pairs before the frame is
+    /// fitted; after, position set `i` in rows `2i` and `2i + 1` as
+    /// `[Σd, Σe, Σd²]`, `[Σd·e, Σe², 0]`.
+    pub(crate) fn saved_stage(&self) -> [[f64; 3]; STAGE] {
+        if !self.framed {
+            return self.stage;
+        }
+        let mut rows = [[0.0; 3]; STAGE];
+        for i in 0..PEND_LANES {
+            let [sd, se, sdd, sde, see] = self.pending_set(i);
+            rows[2 * i] = [sd, se, sdd];
+            rows[2 * i + 1] = [sde, see, 0.0];
+        }
+        rows
+    }
+
+    /// Sets the stage from its saved form ([`Self::saved_stage`]; `framed`
+    /// already set). `false` if a framed state's unused row slots are not
+    /// zero (they are then dropped).
+    pub(crate) fn load_saved_stage(&mut self, rows: [[f64; 3]; STAGE]) -> bool {
+        if !self.framed {
+            self.stage = rows;
+            return true;
+        }
+        self.stage = [[0.0; 3]; STAGE];
+        let mut pads_zero = true;
+        for i in 0..PEND_LANES {
+            let ([sd, se, sdd], [sde, see, pad]) = (rows[2 * i], rows[2 * i + 1]);
+            self.set_pending_set(i, [sd, se, sdd, sde, see]);
+            pads_zero &= pad == 0.0;
+        }
+        pads_zero
+    }
+
+    /// Sets position set `i`'s sums (see [`Self::pending_set`]).
+    pub(crate) fn set_pending_set(&mut self, i: usize, v: [f64; 5]) {
+        let s = self.stage.as_flattened_mut();
+        for (j, v) in pend_slots(i).into_iter().zip(v) {
+            s[j] = v;
+        }
     }
 
     /// Whether the pending block's length and sums are ones its pushes can
@@ -568,11 +636,10 @@ impl<T: Tier> PairMoments<T> {
         if k == 0 {
             return self.stage.iter().flatten().all(|&v| v == 0.0);
         }
-        let sets_ok = self.stage.chunks_exact(2).enumerate().all(|(i, r)| {
+        let sets_ok = (0..PEND_LANES).all(|i| {
             // Positions i, i + PEND_LANES, ... below k.
             let m = ((k + PEND_LANES - 1 - i) / PEND_LANES) as f64;
-            let [sd, se, sdd] = r[0];
-            let [sde, see, pad] = r[1];
+            let [sd, se, sdd, sde, see] = self.pending_set(i);
             let (l1, l2) = (2.0 * m * PEND_LIMIT, 2.0 * m * PEND_LIMIT_SQ);
             sd.abs() <= l1
                 && se.abs() <= l1
@@ -580,14 +647,16 @@ impl<T: Tier> PairMoments<T> {
                 && see >= 0.0
                 && sdd + see <= l2
                 && sde.abs() <= l2
-                && pad == 0.0
         });
+        let spare_ok =
+            (0..PEND_LANES).all(|i| self.stage.as_flattened()[pend_slots(i)[4] + 1] == 0.0);
         !T::IS_FULL
             && self.framed
             && !self.slope_free
             && k <= PENDING_BLOCK
             && self.state_in_pending_bounds()
             && sets_ok
+            && spare_ok
     }
 
     /// Folds the pending block into the centred moments: the block's sums

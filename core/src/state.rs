@@ -857,7 +857,7 @@ impl<T: StateTier> PairMoments<T> {
             }
             // The stage before the frame is fitted, the pending block's
             // sums after.
-            for p in self.stage {
+            for p in self.saved_stage() {
                 for v in p {
                     w.f64(v);
                 }
@@ -914,17 +914,21 @@ impl<T: StateTier> PairMoments<T> {
         a.sxx = r.f64();
         a.sxv = r.f64();
         a.svv = r.f64();
-        for p in a.stage.iter_mut() {
+        let mut rows = [[0.0; 3]; STAGE];
+        for p in rows.iter_mut() {
             for v in p.iter_mut() {
                 *v = r.f64();
             }
         }
+        let pads_zero = a.load_saved_stage(rows);
         check(
             pend_len as usize <= PENDING_BLOCK && (a.framed || pend_len == 0),
             StateField::Pending,
         )?;
         a.set_pend_len(pend_len);
         check_base(&a)?;
+        // After the other base rules, as part of the pending block's.
+        check(pads_zero, StateField::Pending)?;
         T::get_extra(&mut a, &r.b[r.at..])?;
         Ok(a)
     }
