@@ -312,6 +312,36 @@ impl<T: Tier> Default for PairMoments<T> {
     }
 }
 
+/// The second-order moments of a lean state (internal): a fold's result,
+/// or the state's own for the pending-block bounds.
+#[derive(Clone, Copy, Debug)]
+struct Folded {
+    count: u64,
+    w: f64,
+    w2: f64,
+    mx: f64,
+    mv: f64,
+    sxx: f64,
+    sxv: f64,
+    svv: f64,
+}
+
+impl Folded {
+    /// Within the bounds a block may be open under, with frame slope `b0`
+    /// (see the pending-block notes).
+    fn in_pending_bounds(&self, b0: f64) -> bool {
+        b0.abs() <= PEND_SLOPE
+            && self.mx.abs() <= PEND_LIMIT
+            && self.mv.abs() <= PEND_LIMIT
+            && self.sxx <= PEND_BIG
+            && self.svv <= PEND_BIG
+            && self.sxv.abs() <= PEND_BIG
+            && self.w <= PEND_BIG
+            && self.w2 <= PEND_BIG
+            && self.count <= 1 << 62
+    }
+}
+
 /// A set of moments in one frame, used for merges (internal).
 #[derive(Clone, Copy, Debug)]
 struct Set {
@@ -496,6 +526,18 @@ impl<T: Tier> PairMoments<T> {
             }
             return self.push_checked(x, y, 1.0);
         }
+        // A full block (or a pair it cannot take). When the pair opens the
+        // next block after the fold, fold in place: the fold is atomic and
+        // opening cannot fail, so no copy of the state is needed.
+        let f = self.folded()?;
+        let (d, e) = self.offsets_about(x, y, f.mx, f.mv);
+        // As `try_open` checks after the fold.
+        let opens = !T::IS_FULL && self.framed && !self.slope_free;
+        if opens && f.in_pending_bounds(self.b0) && d * d + e * e <= PEND_LIMIT_SQ {
+            self.set_folded(f);
+            self.open_with(d, e);
+            return Ok(());
+        }
         let mut t = *self;
         t.fold_pending()?;
         if !t.try_open(x, y) {
@@ -527,9 +569,15 @@ impl<T: Tier> PairMoments<T> {
     /// `(d, e)` of a pair: its offsets in the frame from the means.
     #[inline(always)]
     fn pending_offsets(&self, x: f64, y: f64) -> (f64, f64) {
+        self.offsets_about(x, y, self.mx, self.mv)
+    }
+
+    /// `(d, e)` of a pair about means `(mx, mv)` in the frame.
+    #[inline(always)]
+    fn offsets_about(&self, x: f64, y: f64, mx: f64, mv: f64) -> (f64, f64) {
         let dx = x - self.x0;
         let v = (y - self.y0) - self.b0 * dx;
-        (dx - self.mx, v - self.mv)
+        (dx - mx, v - mv)
     }
 
     /// Opens a pending block with `(x, y)` as its first pair if the state
@@ -543,27 +591,34 @@ impl<T: Tier> PairMoments<T> {
             return false;
         }
         let (d, e) = self.pending_offsets(x, y);
-        let (dd, de, ee) = (d * d, d * e, e * e);
-        if !(dd + ee <= PEND_LIMIT_SQ) {
+        if !(d * d + e * e <= PEND_LIMIT_SQ) {
             return false;
         }
-        // The stage is empty (all zero) in a framed state.
-        self.set_pending_set(0, [d, e, dd, de, ee]);
-        self.set_pend_len(1);
+        self.open_with(d, e);
         true
+    }
+
+    /// Opens a pending block whose first pair has offsets `(d, e)` (within
+    /// the bounds; the state within them, framed, with no block open).
+    fn open_with(&mut self, d: f64, e: f64) {
+        // The stage is empty (all zero) in a framed state.
+        self.set_pending_set(0, [d, e, d * d, d * e, e * e]);
+        self.set_pend_len(1);
     }
 
     /// The state bounds under which a block may be open (see the pending-block notes).
     pub(crate) fn state_in_pending_bounds(&self) -> bool {
-        self.b0.abs() <= PEND_SLOPE
-            && self.mx.abs() <= PEND_LIMIT
-            && self.mv.abs() <= PEND_LIMIT
-            && self.sxx <= PEND_BIG
-            && self.svv <= PEND_BIG
-            && self.sxv.abs() <= PEND_BIG
-            && self.w <= PEND_BIG
-            && self.w2 <= PEND_BIG
-            && self.count <= 1 << 62
+        let now = Folded {
+            count: self.count,
+            w: self.w,
+            w2: self.w2,
+            mx: self.mx,
+            mv: self.mv,
+            sxx: self.sxx,
+            sxv: self.sxv,
+            svv: self.svv,
+        };
+        now.in_pending_bounds(self.b0)
     }
 
     /// The pending block's `[Σd, Σe, Σd², Σd·e, Σe²]`, the position sets
@@ -664,10 +719,18 @@ impl<T: Tier> PairMoments<T> {
     /// merged as any chunk is (Chan–Golub–LeVeque). Atomic; cannot fail
     /// for a block that kept the pending-block bounds.
     pub(crate) fn fold_pending(&mut self) -> Result<(), MomentsError> {
-        let k = self.pend_len();
-        if k == 0 {
+        if !self.pend_open {
             return Ok(());
         }
+        let f = self.folded()?;
+        self.set_folded(f);
+        Ok(())
+    }
+
+    /// The moments with the pending block (open) folded in; see
+    /// [`Self::fold_pending`].
+    fn folded(&self) -> Result<Folded, MomentsError> {
+        let k = self.pend_len();
         let [s_x, s_v, s_xx, s_xv, s_vv] = self.pending_sums();
         let n = k as f64;
         // The block's mean offsets from the state's means, and its centred
@@ -690,17 +753,30 @@ impl<T: Tier> PairMoments<T> {
         let Some(count) = count.filter(|_| ok) else {
             return Err(MomentsError::Overflow);
         };
-        self.w = w;
-        self.w2 = w2;
-        self.mx = mx;
-        self.mv = mv;
-        self.sxx = sxx;
-        self.sxv = sxv;
-        self.svv = svv;
-        self.count = count;
+        Ok(Folded {
+            count,
+            w,
+            w2,
+            mx,
+            mv,
+            sxx,
+            sxv,
+            svv,
+        })
+    }
+
+    /// Commits folded moments and empties the block.
+    fn set_folded(&mut self, f: Folded) {
+        self.w = f.w;
+        self.w2 = f.w2;
+        self.mx = f.mx;
+        self.mv = f.mv;
+        self.sxx = f.sxx;
+        self.sxv = f.sxv;
+        self.svv = f.svv;
+        self.count = f.count;
         self.stage = [[0.0; 3]; STAGE];
         self.set_pend_len(0);
-        Ok(())
     }
 
     /// Adds one pair with weight `w > 0`. Weights are relative or known
