@@ -254,7 +254,7 @@ fn main() {
         std::thread::available_parallelism().map_or(0, |n| n.get())
     );
     println!(
-        "simd kernels: {} (best supported: {}; cap with {}=avx512|avx|scalar)",
+        "simd kernels: {}; best supported: {}; cap with {}=avx512|avx|scalar",
         plumbfit_kernels::active().unwrap_or("none (scalar kernels)"),
         KernelSet::ALL
             .into_iter()
