@@ -49,9 +49,9 @@ pub const PENDING_BLOCK: usize = 256;
 /// one set measured 1.5 times slower per push.
 const PEND_LANES: usize = 4;
 
-/// Step of `pend_at` per pair: `pend_at & PEND_SET_MASK` is then 8 times
-/// the pair's position set, which addresses its sums with no more
-/// arithmetic (see [`pend_slots`]).
+/// Step of `pend_at` per pair: the new `pend_at & PEND_SET_MASK` is then 8
+/// times the place of the pushed pair's position set, which addresses its
+/// sums with no more arithmetic (see [`pend_slots`]).
 const PEND_STEP: isize = 8;
 /// See [`PEND_STEP`].
 const PEND_SET_MASK: isize = PEND_STEP * (PEND_LANES as isize - 1);
@@ -60,8 +60,11 @@ const PEND_SET_MASK: isize = PEND_STEP * (PEND_LANES as isize - 1);
 /// `[Σd, Σe, Σd², Σd·e, Σe²]` (see the pending-block notes).
 #[inline(always)]
 pub(crate) const fn pend_slots(i: usize) -> [usize; 5] {
-    let (a, b) = (2 * i, 2 * PEND_LANES + 2 * i);
-    [a, a + 1, b, b + 1, 4 * PEND_LANES + 2 * i]
+    // Set `i` sits at place `i + 1` (mod PEND_LANES): a push finds its
+    // place from the length after it.
+    let p = (i + 1) % PEND_LANES;
+    let (a, b) = (2 * p, 2 * PEND_LANES + 2 * p);
+    [a, a + 1, b, b + 1, 4 * PEND_LANES + 2 * p]
 }
 
 /// Bound on `|d|` and `|e|` of a pair entering the pending block and on
@@ -86,10 +89,12 @@ const PEND_BIG: f64 = 1.0715086071862673e301;
 // Storage: `pend_len()` pairs, and the sums in the stage array, which is
 // empty once the frame is fitted. Position set `i` (the block's pairs at
 // positions `≡ i (mod PEND_LANES)`) is at the flattened slots
-// `pend_slots(i)`: `[Σd, Σe]` at `2i`, `[Σd², Σd·e]` at `2·PEND_LANES + 2i`,
-// `Σe²` at `4·PEND_LANES + 2i` (the slot after it stays 0). With
-// `r = 8i` every sum of the set is at byte offset `2r` plus a constant, so
-// a push finds its set with one mask. Separate sets keep the adds through
+// `pend_slots(i)`: with place `p = (i + 1) mod PEND_LANES`, `[Σd, Σe]` at
+// `2p`, `[Σd², Σd·e]` at `2·PEND_LANES + 2p`, `Σe²` at `4·PEND_LANES + 2p`
+// (the slot after it stays 0). With `r = 8p` every sum of the set is at
+// byte offset `2r` plus a constant, so a push finds its set with one mask
+// of its new length (stored first, so the mask needs no copy of the
+// length). Separate sets keep the adds through
 // memory from forming one dependency chain across pushes. All zero when
 // `pend_len() == 0`. Saved bytes keep the version 2 rows
 // (`[Σd, Σe, Σd²]`, `[Σd·e, Σe², 0]` in rows `2i`, `2i + 1`; see
@@ -496,9 +501,12 @@ impl<T: Tier> PairMoments<T> {
             // `d² + e² <= 2^600` implies `|d|, |e| <= 2^300`; NaN,
             // infinities and squares that overflow all fail it.
             if dd + ee <= PEND_LIMIT_SQ {
-                // `8 · (k mod PEND_LANES)`; the slots are `pend_slots(r / 8)`,
-                // written so every byte offset is `2r` plus a constant.
-                let r = (at & PEND_SET_MASK) as usize;
+                // `8 · ((k + 1) mod PEND_LANES)`; the slots are
+                // `pend_slots(k mod PEND_LANES)`, written so every byte
+                // offset is `2r` plus a constant.
+                let next = at + PEND_STEP;
+                self.pend_at = next;
+                let r = (next & PEND_SET_MASK) as usize;
                 let a = r / 4;
                 let (b, c) = (2 * PEND_LANES + a, 4 * PEND_LANES + a);
                 let s = self.stage.as_flattened_mut();
@@ -507,7 +515,6 @@ impl<T: Tier> PairMoments<T> {
                 s[b] += dd;
                 s[b + 1] += de;
                 s[c] += ee;
-                self.pend_at = at + PEND_STEP;
                 return Ok(());
             }
         }
