@@ -240,7 +240,6 @@ fn read_avx512<const AHEAD: usize>(xs: &[f64], ys: &[f64]) -> f64 {
 // anyway through `plumbfit-kernels`.
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx512f")]
-#[clippy::msrv = "1.89"]
 fn read_avx512_body<const AHEAD: usize>(xs: &[f64], ys: &[f64]) -> f64 {
     use std::arch::x86_64::*;
     let n = xs.len();

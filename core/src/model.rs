@@ -1854,9 +1854,9 @@ impl ModelFit {
                 .iter()
                 .flatten()
                 .all(fin)
-            && self.f_stat.map_or(true, |f| {
-                f.is_finite() || (self.exact_fit && f == f64::INFINITY)
-            })
+            && self
+                .f_stat
+                .is_none_or(|f| f.is_finite() || (self.exact_fit && f == f64::INFINITY))
     }
 
     fn check_row(&self, row: &[f64]) -> Result<(), ModelError> {

@@ -1141,7 +1141,7 @@ impl<T: Tier> PairMoments<T> {
         let ok = all_finite(&[w, w2, mx, mv, sxx, sxv, svv])
             && sxx >= 0.0
             && svv >= 0.0
-            && T::higher(&hi).map_or(true, |h| {
+            && T::higher(&hi).is_none_or(|h| {
                 h.m.iter()
                     .flatten()
                     .chain(h.lag.iter())

@@ -28,9 +28,8 @@ fn all_finite(f: &ModelFit) -> bool {
     v.extend(f.adj_r_squared);
     v.extend(f.ms_model);
     v.iter().all(|x| x.is_finite())
-        && f.f_stat.map_or(true, |s| {
-            s.is_finite() || (f.exact_fit && s == f64::INFINITY)
-        })
+        && f.f_stat
+            .is_none_or(|s| s.is_finite() || (f.exact_fit && s == f64::INFINITY))
 }
 
 fn line_rows(m: &mut ModelMoments, scale: f64) {

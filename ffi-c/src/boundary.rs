@@ -38,7 +38,7 @@ pub(crate) unsafe fn check_head<O>(p: *const O, tag: u32) -> Result<Head, pf_sta
     if p.is_null() {
         return Err(PF_ERR_NULL_POINTER);
     }
-    if (p as usize) % core::mem::align_of::<O>() != 0 {
+    if !(p as usize).is_multiple_of(core::mem::align_of::<O>()) {
         return Err(PF_ERR_BAD_HANDLE);
     }
     // SAFETY: non-NULL and aligned (checked above; O starts with a Head and
@@ -119,7 +119,7 @@ pub(crate) unsafe fn slice_in<'a>(p: *const f64, len: usize) -> Result<&'a [f64]
     if p.is_null() {
         return Err(PF_ERR_NULL_POINTER);
     }
-    if (p as usize) % core::mem::align_of::<f64>() != 0 {
+    if !(p as usize).is_multiple_of(core::mem::align_of::<f64>()) {
         return Err(PF_ERR_MISALIGNED);
     }
     if len > isize::MAX as usize / core::mem::size_of::<f64>() {

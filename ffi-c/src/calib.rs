@@ -550,7 +550,7 @@ pub unsafe extern "C" fn pf_levels_init_in(
         if len < l.size() {
             return PF_ERR_BUFFER_TOO_SMALL;
         }
-        if (buf as usize) % l.align() != 0 {
+        if !(buf as usize).is_multiple_of(l.align()) {
             return PF_ERR_MISALIGNED;
         }
         // SAFETY: size and alignment checked; writable by the contract.
@@ -602,7 +602,7 @@ pub unsafe extern "C" fn pf_levels_free(l: *mut pf_levels) -> pf_status {
         if l.is_null() {
             return PF_OK;
         }
-        if (l as usize) % 8 != 0 {
+        if !(l as usize).is_multiple_of(8) {
             return PF_ERR_BAD_HANDLE;
         }
         // SAFETY: non-NULL, aligned; handles start with a Head.

@@ -238,7 +238,7 @@ pub unsafe extern "C" fn pf_fitted_line_residuals(
         (Ok(x), Ok(y)) => (x, y),
         (Err(e), _) | (_, Err(e)) => return e,
     };
-    if (out as usize) % core::mem::align_of::<f64>() != 0 {
+    if !(out as usize).is_multiple_of(core::mem::align_of::<f64>()) {
         return PF_ERR_MISALIGNED;
     }
     if cap > isize::MAX as usize / 8 {

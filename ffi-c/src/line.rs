@@ -318,7 +318,7 @@ pub unsafe extern "C" fn pf_line_init_in(
         if len < l.size() {
             return PF_ERR_BUFFER_TOO_SMALL;
         }
-        if (buf as usize) % l.align() != 0 {
+        if !(buf as usize).is_multiple_of(l.align()) {
             return PF_ERR_MISALIGNED;
         }
         // SAFETY: `buf` is non-NULL, large enough and aligned (checked);
@@ -380,7 +380,7 @@ pub unsafe extern "C" fn pf_line_free(line: *mut pf_line) -> pf_status {
         if line.is_null() {
             return PF_OK;
         }
-        if (line as usize) % core::mem::align_of::<Head>() != 0 {
+        if !(line as usize).is_multiple_of(core::mem::align_of::<Head>()) {
             return PF_ERR_BAD_HANDLE;
         }
         // SAFETY: non-NULL and aligned; a handle from us starts with a Head.

@@ -97,7 +97,7 @@ pub struct pf_model_info {
 const TAG_MODEL: u32 = 0x504c_4d31;
 /// Bytes before the state: the handle head, padded to 8-byte alignment.
 const STATE_OFFSET: usize = core::mem::size_of::<Head>();
-const _: () = assert!(STATE_OFFSET % 8 == 0);
+const _: () = assert!(STATE_OFFSET.is_multiple_of(8));
 const MAX_STATE: usize = storage_len(MAX_PARAMS);
 
 fn model_err(e: ModelError) -> pf_status {
@@ -367,7 +367,7 @@ pub unsafe extern "C" fn pf_model_init_in(
         if len < l.size() {
             return PF_ERR_BUFFER_TOO_SMALL;
         }
-        if (buf as usize) % l.align() != 0 {
+        if !(buf as usize).is_multiple_of(l.align()) {
             return PF_ERR_MISALIGNED;
         }
         // SAFETY: size and alignment checked; writable by the contract.
@@ -436,7 +436,7 @@ pub unsafe extern "C" fn pf_model_free(m: *mut pf_model) -> pf_status {
         if m.is_null() {
             return PF_OK;
         }
-        if (m as usize) % 8 != 0 {
+        if !(m as usize).is_multiple_of(8) {
             return PF_ERR_BAD_HANDLE;
         }
         // SAFETY: non-NULL, aligned; handles start with a Head.

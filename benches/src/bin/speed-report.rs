@@ -65,7 +65,7 @@ fn main() {
         .iter()
         .position(|a| a == "--only")
         .and_then(|i| args.get(i + 1).cloned());
-    let on = |section: &str| only.as_deref().map_or(true, |o| o == section);
+    let on = |section: &str| only.as_deref().is_none_or(|o| o == section);
     let budget = if quick { 0.05 } else { 0.6 };
     let load0 = load_average().unwrap_or_else(|| "unknown".into());
     let mut rows: Vec<Row> = Vec::new();

@@ -87,9 +87,7 @@ fn open_levels(bytes: &[u8]) -> Result<&[u8], StateError> {
         // Keys: finite, the one zero is +0.0, strictly increasing (the
         // store's sorted, duplicate-free order).
         check(
-            l.x.is_finite()
-                && l.x.to_bits() != (-0.0f64).to_bits()
-                && prev.map_or(true, |p| p < l.x),
+            l.x.is_finite() && l.x.to_bits() != (-0.0f64).to_bits() && prev.is_none_or(|p| p < l.x),
             StateField::LevelX,
         )?;
         prev = Some(l.x);

@@ -127,7 +127,7 @@ enum Op {
 fn block(s: &mut Src<'_>) -> (Vec<f64>, Vec<f64>, Vec<f64>) {
     let k = s.byte();
     // Mostly short blocks; sometimes one longer than a kernel chunk (512).
-    let n = if k % 16 == 0 {
+    let n = if k.is_multiple_of(16) {
         520 + (k as usize % 7)
     } else {
         k as usize % 40
@@ -373,9 +373,9 @@ fn model_query(a: &ModelMoments) {
             .chain(fit.adj_r_squared.iter())
             .chain(fit.ms_model.iter())
             .all(|v| v.is_finite());
-        let f_ok = fit.f_stat.map_or(true, |f| {
-            f.is_finite() || (fit.exact_fit && f == f64::INFINITY)
-        });
+        let f_ok = fit
+            .f_stat
+            .is_none_or(|f| f.is_finite() || (fit.exact_fit && f == f64::INFINITY));
         assert!(
             finite && f_ok,
             "non-finite number in a model fit\n{fit:?}\n{a:?}"

@@ -302,7 +302,7 @@ fn built_blob(s: &mut Src<'_>, sorted: bool) -> Vec<u8> {
             3 => 1,
             _ => 1 + s.byte() as u64,
         };
-        let m2 = if count == 1 && s.byte() % 4 != 0 {
+        let m2 = if count == 1 && !s.byte().is_multiple_of(4) {
             0.0
         } else {
             s.value()
