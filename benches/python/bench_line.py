@@ -32,7 +32,11 @@ worker threads spin for about 0.1 s after a call, and that CPU time would
 otherwise be counted to the next call (CPU figures are process CPU time,
 all threads). Each row gives the largest absolute coefficient difference
 from numpy.linalg.lstsq. The target line ``model_p8_vs_lstsq >= 1`` judges
-the p = 8 ratio (numpy.linalg.lstsq wall time over plumbfit's).
+the p = 8 ratio (numpy.linalg.lstsq wall time over plumbfit's) at
+``--model-n`` rows. plumbfit's rows/s at a given p hardly depend on n (the
+double-double arithmetic, not the memory read, limits it); lstsq's fall
+once the design no longer fits in cache, so the ratio grows with n, and a
+design small enough to stay in cache can favour lstsq.
 
 Threads: plumbfit runs on one thread; the LAPACK paths use OpenBLAS, which
 starts one thread per core unless ``OPENBLAS_NUM_THREADS`` (or
