@@ -651,8 +651,9 @@ pub unsafe extern "C" fn pf_model_extend_weighted(
 
 /// Multiplies the weight of every row so far by `lambda` in (0, 1].
 ///
-/// Errors: `PF_ERR_MODEL_FORGETTING`, handle errors. On error the state is
-/// unchanged. Needs exclusive access.
+/// Errors: `PF_ERR_MODEL_FORGETTING`, `PF_ERR_MODEL_OVERFLOW` if the
+/// weight sum or a diagonal weight would underflow to zero, handle errors.
+/// On error the state is unchanged. Needs exclusive access.
 ///
 /// # Safety
 /// `m` NULL or a live handle from this library.
