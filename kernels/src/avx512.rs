@@ -13,28 +13,8 @@
 //!   masked load and its empty lanes become +0 (terms) or leave the
 //!   extremes alone, as in the AVX kernel.
 
-use super::{FullSums, ShiftedSums};
+use super::{prefetch, shifted_tail, FullSums, ShiftedSums, AHEAD, LEAN_AHEAD};
 use std::arch::x86_64::*;
-
-/// How far ahead (in values) the streaming loops ask for data, as in the
-/// AVX kernels (about 1 KiB per array).
-const AHEAD: usize = 128;
-
-/// The lean kernel's prefetch distance (values, 2 KiB per array),
-/// chosen by measurement: on an Intel Xeon (KVM) at 10⁷ pairs the kernel
-/// alone reached 0.93–0.96 of the read ceiling with 256, 0.83–0.89 with
-/// 128 and about 0.90 with 512.
-const LEAN_AHEAD: usize = 256;
-
-/// Hint that `s[i..]` (or the memory just past `s`) will be read soon.
-#[inline]
-#[target_feature(enable = "avx512f")]
-fn prefetch(s: &[f64], i: usize) {
-    // A prefetch never faults and does not change any result, so an
-    // address past the end of `s` is harmless; `wrapping_add` keeps the
-    // pointer arithmetic itself defined.
-    _mm_prefetch::<_MM_HINT_T0>(s.as_ptr().wrapping_add(i) as *const i8);
-}
 
 /// Unaligned load of eight values starting at `s[i]`.
 #[inline]
@@ -146,16 +126,7 @@ pub(super) fn shifted(xs: &[f64], ys: &[f64], xc: f64, yc: f64, b0: f64) -> Shif
         s[4] = _mm512_add_pd(s[4], _mm512_mul_pd(v, v));
         i += 8;
     }
-    let mut t = [0.0f64; 5];
-    for (x, y) in xs[body..n].iter().zip(&ys[body..n]) {
-        let dx = x - xc;
-        let v = (y - yc) - b0 * dx;
-        t[0] += dx;
-        t[1] += v;
-        t[2] += dx * dx;
-        t[3] += dx * v;
-        t[4] += v * v;
-    }
+    let t = shifted_tail(&xs[body..n], &ys[body..n], xc, yc, b0);
     ShiftedSums {
         sx: reduce8(s[0]) + t[0],
         sv: reduce8(s[1]) + t[1],

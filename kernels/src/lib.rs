@@ -334,9 +334,54 @@ pub fn full_sums_with(
 #[cfg(target_arch = "x86_64")]
 mod avx512;
 
+/// How far ahead (in values) the streaming kernels ask for data: about
+/// 1 KiB per array, enough to cover memory latency at full bandwidth. The
+/// hardware prefetcher alone keeps fewer lines in flight when the loop has
+/// arithmetic between its loads.
+#[cfg(target_arch = "x86_64")]
+const AHEAD: usize = 128;
+
+/// The lean kernels' prefetch distance (values, 2 KiB per array), chosen
+/// by measurement: on an Intel Xeon (KVM) at 10⁷ pairs the kernel alone
+/// reached 0.93–0.96 of the read ceiling with 256, 0.83–0.89 with 128 and
+/// about 0.90 with 512.
+#[cfg(target_arch = "x86_64")]
+const LEAN_AHEAD: usize = 256;
+
+/// Hint that `s[i..]` (or the memory just past `s`) will be read soon.
+/// (SSE only, so both the AVX and the AVX-512 kernels call it safely.)
+#[cfg(target_arch = "x86_64")]
+#[inline]
+#[target_feature(enable = "sse")]
+fn prefetch(s: &[f64], i: usize) {
+    use std::arch::x86_64::{_mm_prefetch, _MM_HINT_T0};
+    // A prefetch never faults and does not change any result, so an
+    // address past the end of `s` is harmless; `wrapping_add` keeps the
+    // pointer arithmetic itself defined.
+    _mm_prefetch::<_MM_HINT_T0>(s.as_ptr().wrapping_add(i) as *const i8);
+}
+
+/// The lean kernels' tail: the pairs after the last full block of eight,
+/// added in order into sums that start at 0 (the lane contract).
+#[cfg(target_arch = "x86_64")]
+#[inline(always)]
+fn shifted_tail(xs: &[f64], ys: &[f64], xc: f64, yc: f64, b0: f64) -> [f64; 5] {
+    let mut t = [0.0f64; 5];
+    for (x, y) in xs.iter().zip(ys) {
+        let dx = x - xc;
+        let v = (y - yc) - b0 * dx;
+        t[0] += dx;
+        t[1] += v;
+        t[2] += dx * dx;
+        t[3] += dx * v;
+        t[4] += v * v;
+    }
+    t
+}
+
 #[cfg(target_arch = "x86_64")]
 mod avx {
-    use super::{FullSums, ShiftedSums};
+    use super::{prefetch, shifted_tail, FullSums, ShiftedSums, AHEAD, LEAN_AHEAD};
     use std::arch::x86_64::*;
 
     /// `((l0+l4)+(l2+l6)) + ((l1+l5)+(l3+l7))` of lanes `a[0] ‖ a[1]`.
@@ -378,28 +423,6 @@ mod avx {
         unsafe { _mm256_loadu_pd(q.as_ptr()) }
     }
 
-    /// How far ahead (in values) the streaming kernel asks for data: about
-    /// 1 KiB per array, enough to cover memory latency at full bandwidth.
-    /// The hardware prefetcher alone keeps fewer lines in flight when the
-    /// loop has arithmetic between its loads.
-    const AHEAD: usize = 128;
-
-    /// The lean kernel's prefetch distance (values, 2 KiB per array),
-    /// chosen by measurement: on an Intel Xeon (KVM) at 10⁷ pairs the kernel
-    /// alone reached 0.93–0.96 of the read ceiling with 256, 0.83–0.89 with
-    /// 128 and about 0.90 with 512.
-    const LEAN_AHEAD: usize = 256;
-
-    /// Hint that `s[i..]` (or the memory just past `s`) will be read soon.
-    #[inline]
-    #[target_feature(enable = "avx")]
-    fn prefetch(s: &[f64], i: usize) {
-        // A prefetch never faults and does not change any result, so an
-        // address past the end of `s` is harmless; `wrapping_add` keeps the
-        // pointer arithmetic itself defined.
-        _mm_prefetch::<_MM_HINT_T0>(s.as_ptr().wrapping_add(i) as *const i8);
-    }
-
     #[target_feature(enable = "avx")]
     pub(super) fn shifted(xs: &[f64], ys: &[f64], xc: f64, yc: f64, b0: f64) -> ShiftedSums {
         let n = xs.len();
@@ -424,16 +447,7 @@ mod avx {
             }
             i += 8;
         }
-        let mut t = [0.0f64; 5];
-        for (x, y) in xs[body..].iter().zip(&ys[body..]) {
-            let dx = x - xc;
-            let v = (y - yc) - b0 * dx;
-            t[0] += dx;
-            t[1] += v;
-            t[2] += dx * dx;
-            t[3] += dx * v;
-            t[4] += v * v;
-        }
+        let t = shifted_tail(&xs[body..], &ys[body..], xc, yc, b0);
         ShiftedSums {
             sx: reduce8(sx) + t[0],
             sv: reduce8(sv) + t[1],
