@@ -741,6 +741,31 @@ fn check_row(row: &[f64], y: f64, w: f64, idx: usize) -> Result<(), ModelError> 
     Ok(())
 }
 
+/// Whether every regressor and response value is finite and every weight
+/// finite and positive: the test of [`check_row`] over a whole block, on
+/// the bit patterns and without early exit so that it vectorises.
+fn block_is_valid(xs: &[f64], ys: &[f64], ws: Option<&[f64]>) -> bool {
+    const EXP: u64 = 0x7ff0_0000_0000_0000;
+    const EXP_ONE: u64 = 0x0010_0000_0000_0000;
+    // A value is NaN or infinite exactly when its exponent field is all
+    // ones; adding one unit of the exponent then carries into bit 63.
+    let non_finite = |v: &[f64]| {
+        v.iter().fold(0u64, |acc, x| {
+            acc | (x.to_bits() & EXP).wrapping_add(EXP_ONE)
+        })
+    };
+    let mut bad = (non_finite(xs) | non_finite(ys)) >> 63;
+    if let Some(ws) = ws {
+        // Finite and > 0 (subnormals included): bits in 1 ..= largest
+        // finite, so bits − 1 (wrapping) below the largest finite.
+        const LIMIT: u64 = 0x7fef_ffff_ffff_ffff;
+        bad |= ws.iter().fold(0u64, |acc, w| {
+            acc | (w.to_bits().wrapping_sub(1) >= LIMIT) as u64
+        });
+    }
+    bad == 0
+}
+
 /// Header bookkeeping shared by the row paths: counts, weight sums, and
 /// whether column 0 has stayed constant (for intercept detection).
 #[derive(Clone, Copy)]
@@ -781,6 +806,46 @@ impl Tally {
             self.col0_state = COL0_VARIES;
         }
     }
+    /// [`add_row`](Self::add_row) for rows `0..n` (column-0 values from
+    /// `x0`, weights `ws` or all 1), with the same result in every bit.
+    fn add_rows(&mut self, n: usize, x0: impl Fn(usize) -> f64, ws: Option<&[f64]>) {
+        // Adding 1 n times to a whole number c is exact, and so equals
+        // c + n, while c + n stays within 2^53 (`n as f64` is exact: a
+        // slice of doubles is far shorter than 2^53).
+        let room = 9_007_199_254_740_992.0 - n as f64;
+        let whole = |c: f64| c >= 0.0 && c <= room && c == libm::trunc(c);
+        if whole(self.count) {
+            self.count += n as f64;
+        } else {
+            for _ in 0..n {
+                self.count += 1.0;
+            }
+        }
+        match ws {
+            // Unit weights: w = w·w = 1.
+            None if whole(self.wsum) && whole(self.wsq) => {
+                self.wsum += n as f64;
+                self.wsq += n as f64;
+            }
+            _ => {
+                for r in 0..n {
+                    let w = ws.map_or(1.0, |w| w[r]);
+                    self.wsum += w;
+                    self.wsq += w * w;
+                }
+            }
+        }
+        let mut first = 0;
+        if self.col0_state == COL0_NONE && n > 0 {
+            self.col0_state = COL0_CONST;
+            self.col0_value = x0(0);
+            first = 1;
+        }
+        if self.col0_state == COL0_CONST && (first..n).any(|r| x0(r) != self.col0_value) {
+            self.col0_state = COL0_VARIES;
+        }
+    }
+
     fn merge(&mut self, o: &Tally) {
         self.count += o.count;
         self.wsum += o.wsum;
@@ -920,10 +985,13 @@ fn state_extend(
     if n == 0 {
         return Err(ModelError::EmptyInput);
     }
-    // Validate the whole block before touching the state.
-    for r in 0..n {
-        let w = ws.map_or(1.0, |w| w[r]);
-        check_row(&rows[r * p..(r + 1) * p], ys[r], w, r)?;
+    // Validate the whole block before touching the state; the row-by-row
+    // pass only runs to name the first bad value.
+    if !block_is_valid(rows, ys, ws) {
+        for r in 0..n {
+            let w = ws.map_or(1.0, |w| w[r]);
+            check_row(&rows[r * p..(r + 1) * p], ys[r], w, r)?;
+        }
     }
     fold_rows(s, p, &FlatRows { rows, p }, ys, ws)
 }
@@ -940,9 +1008,11 @@ fn state_extend_powers(
     if n == 0 {
         return Err(ModelError::EmptyInput);
     }
-    for r in 0..n {
-        let w = ws.map_or(1.0, |w| w[r]);
-        check_row(&xs[r..r + 1], ys[r], w, r)?;
+    if !block_is_valid(xs, ys, ws) {
+        for r in 0..n {
+            let w = ws.map_or(1.0, |w| w[r]);
+            check_row(&xs[r..r + 1], ys[r], w, r)?;
+        }
     }
     fold_rows(s, p, &PowerRows { xs, p }, ys, ws)
 }
@@ -959,11 +1029,8 @@ fn fold_rows<S: RowSource>(
     if n == 0 {
         return Ok(());
     }
-    let weight = |r: usize| ws.map_or(1.0, |w| w[r]);
     let mut t = Tally::read(s);
-    for r in 0..n {
-        t.add_row(src.x0(r), weight(r));
-    }
+    t.add_rows(n, |r| src.x0(r), ws);
     let main = fold_dispatch(s, p, src, ys, ws);
     if !main.is_finite() || !t.wsq.is_finite() || !t.wsum.is_finite() || !t.count.is_finite() {
         return Err(ModelError::Overflow);
@@ -2091,6 +2158,59 @@ mod tests {
         let back = Dd { hi: h, lo: l }.mul_f64(3.0).sub(Dd::from_f64(1.0));
         // 2^-100 ≈ 8e-31: a plain double reciprocal leaves ~1e-17.
         assert!(back.to_f64().abs() < 1e-30, "{back:?}");
+    }
+
+    #[test]
+    fn block_check_agrees_with_row_check() {
+        // Special values of IEEE 754 binary64 (common practice): both
+        // zeros, the extremes of the subnormal and normal ranges, the
+        // infinities and NaNs of either sign.
+        let specials = [
+            0.0,
+            -0.0,
+            f64::from_bits(1),
+            -f64::from_bits(1),
+            f64::MIN_POSITIVE,
+            f64::MAX,
+            -f64::MAX,
+            1.0,
+            -2.5,
+            f64::INFINITY,
+            f64::NEG_INFINITY,
+            f64::NAN,
+            -f64::NAN,
+            f64::from_bits(0x7ff0_0000_0000_0001),
+        ];
+        let row_check = |xs: &[f64], ys: &[f64], ws: Option<&[f64]>| {
+            (0..ys.len()).all(|r| {
+                let w = ws.map_or(1.0, |w| w[r]);
+                check_row(&xs[r..r + 1], ys[r], w, r).is_ok()
+            })
+        };
+        for &a in &specials {
+            for &b in &specials {
+                // The special value in each position of a short block.
+                let xs = [1.0, a, 3.0];
+                let ys = [b, 2.0, -1.0];
+                let ws = [0.5, 1.0, b];
+                assert_eq!(
+                    block_is_valid(&xs, &ys, None),
+                    row_check(&xs, &ys, None),
+                    "{a:e} {b:e}"
+                );
+                assert_eq!(
+                    block_is_valid(&xs, &ys, Some(&ws)),
+                    row_check(&xs, &ys, Some(&ws)),
+                    "{a:e} {b:e}"
+                );
+                let ws = [a, b, 2.0];
+                assert_eq!(
+                    block_is_valid(&xs, &ys, Some(&ws)),
+                    row_check(&xs, &ys, Some(&ws)),
+                    "{a:e} {b:e}"
+                );
+            }
+        }
     }
 
     #[test]
