@@ -675,7 +675,9 @@ impl<T: Tier> PairMoments<T> {
         for i in 0..PEND_LANES {
             let ([sd, se, sdd], [sde, see, pad]) = (rows[2 * i], rows[2 * i + 1]);
             self.set_pending_set(i, [sd, se, sdd, sde, see]);
-            pads_zero &= pad == 0.0;
+            // Bit for bit: a −0.0 pad would be dropped, so the bytes would not
+            // survive a save.
+            pads_zero &= pad.to_bits() == 0;
         }
         pads_zero
     }
