@@ -121,6 +121,14 @@ const LANES: usize = 8;
 /// final merges of the extra lanes are amortised.
 const LANE_MIN_ROWS: usize = 64;
 
+/// Rows of a block folded as one unit: the first segment continues the
+/// state, each later one is folded from an empty factor and then merged in,
+/// in order. Fixed, so that spreading the segments over threads changes
+/// nothing in the result; large enough that the merges cost well under
+/// 1 % (p + LANES − 1 merged rows per segment), small enough that a
+/// 2 × 10⁵-row block still splits over several threads.
+const SEGMENT_ROWS: usize = 16_384;
+
 /// Number of `f64` values the state of a `p`-coefficient model occupies.
 ///
 /// This is `p² + 3p + 10`; see the module documentation for the layout.
@@ -466,6 +474,23 @@ impl<const N: usize> Work<N> {
         }
         self.sh[lane] = s[off_sse(p)];
         self.sl[lane] = s[off_sse(p) + 1];
+    }
+
+    /// Sets lane `lane` to the single factor `from` (over the same `p`).
+    fn set_lane(&mut self, lane: usize, from: &Work<1>) {
+        let p = self.p;
+        for i in 0..p {
+            self.dh[i][lane] = from.dh[i][0];
+            self.dl[i][lane] = from.dl[i][0];
+            self.th[i][lane] = from.th[i][0];
+            self.tl[i][lane] = from.tl[i][0];
+        }
+        for r in 0..rbar_len(p) {
+            self.rh[r][lane] = from.rh[r][0];
+            self.rl[r][lane] = from.rl[r][0];
+        }
+        self.sh[lane] = from.sh[0];
+        self.sl[lane] = from.sl[0];
     }
 
     fn store_lane(&self, lane: usize, s: &mut [f64]) {
@@ -979,6 +1004,7 @@ fn state_extend(
     rows: &[f64],
     ys: &[f64],
     ws: Option<&[f64]>,
+    threads: usize,
 ) -> Result<(), ModelError> {
     let n = ys.len();
     check_block_lengths(n, rows.len(), p, ws)?;
@@ -993,7 +1019,7 @@ fn state_extend(
             check_row(&rows[r * p..(r + 1) * p], ys[r], w, r)?;
         }
     }
-    fold_rows(s, p, &FlatRows { rows, p }, ys, ws)
+    fold_rows(s, p, &FlatRows { rows, p }, ys, ws, threads)
 }
 
 fn state_extend_powers(
@@ -1014,16 +1040,19 @@ fn state_extend_powers(
             check_row(&xs[r..r + 1], ys[r], w, r)?;
         }
     }
-    fold_rows(s, p, &PowerRows { xs, p }, ys, ws)
+    fold_rows(s, p, &PowerRows { xs, p }, ys, ws, 1)
 }
 
 /// Folds validated rows into the state; commits only if it stays finite.
-fn fold_rows<S: RowSource>(
+/// `threads` caps the threads sharing the segments (1: this thread only);
+/// the result is the same in every bit for any count.
+fn fold_rows<S: RowSource + Sync>(
     s: &mut [f64],
     p: usize,
     src: &S,
     ys: &[f64],
     ws: Option<&[f64]>,
+    threads: usize,
 ) -> Result<(), ModelError> {
     let n = ys.len();
     if n == 0 {
@@ -1031,13 +1060,81 @@ fn fold_rows<S: RowSource>(
     }
     let mut t = Tally::read(s);
     t.add_rows(n, |r| src.x0(r), ws);
-    let main = fold_dispatch(s, p, src, ys, ws);
+    let mut start = Work::<1>::empty(p);
+    start.load_lane(0, s);
+    let main = fold_segments(start, p, src, ys, ws, threads);
     if !main.is_finite() || !t.wsq.is_finite() || !t.wsum.is_finite() || !t.count.is_finite() {
         return Err(ModelError::Overflow);
     }
     main.store_lane(0, s);
     t.write(s);
     Ok(())
+}
+
+/// Folds rows `0..n` in [`SEGMENT_ROWS`] segments: the first continues
+/// `start`, each later one starts empty and is merged into the running
+/// factor in order. Without `std` (no lanes, no threads, small stacks) the
+/// block is one segment.
+fn fold_segments<S: RowSource + Sync>(
+    start: Work<1>,
+    p: usize,
+    src: &S,
+    ys: &[f64],
+    ws: Option<&[f64]>,
+    threads: usize,
+) -> Work<1> {
+    let n = ys.len();
+    if !cfg!(feature = "std") || n <= SEGMENT_ROWS {
+        return fold_dispatch(&start, src, ys, ws, 0, n);
+    }
+    let segs = n.div_ceil(SEGMENT_ROWS);
+    let seg = |k: usize, from: &Work<1>| {
+        let lo = k * SEGMENT_ROWS;
+        fold_dispatch(from, src, ys, ws, lo, n.min(lo + SEGMENT_ROWS))
+    };
+    let empty = Work::<1>::empty(p);
+    #[cfg(feature = "std")]
+    if threads > 1 {
+        let parts = par_segments(segs, threads, |k| {
+            seg(k, if k == 0 { &start } else { &empty })
+        });
+        let mut it = parts.into_iter();
+        let mut main = it.next().unwrap_or(start);
+        for f in it {
+            main.absorb_lane::<1, false>(&f, 0);
+        }
+        return main;
+    }
+    let _ = threads;
+    let mut main = seg(0, &start);
+    for k in 1..segs {
+        main.absorb_lane::<1, false>(&seg(k, &empty), 0);
+    }
+    main
+}
+
+/// Runs `job(k)` for `k` in `0..count` on up to `threads` scoped threads
+/// (the caller's among them), contiguous runs of `k` per thread, and
+/// returns the results in `k` order.
+#[cfg(feature = "std")]
+fn par_segments<T: Send, F: Fn(usize) -> T + Sync>(count: usize, threads: usize, job: F) -> Vec<T> {
+    let t = threads.min(count).max(1);
+    let run = |lo: usize, hi: usize| (lo..hi).map(&job).collect::<Vec<T>>();
+    let bound = |i: usize| i * count / t;
+    std::thread::scope(|scope| {
+        let handles: Vec<_> = (1..t)
+            .map(|i| {
+                let run = &run;
+                scope.spawn(move || run(bound(i), bound(i + 1)))
+            })
+            .collect();
+        let mut out = run(0, bound(1));
+        for h in handles {
+            // A panic in a worker is a bug in this module; pass it on.
+            out.extend(h.join().unwrap_or_else(|e| std::panic::resume_unwind(e)));
+        }
+        out
+    })
 }
 
 /// Whether [`fold_dispatch`] may take the AVX2 + FMA path.
@@ -1055,46 +1152,48 @@ pub fn set_fma_dispatch(enabled: bool) {
     let _ = enabled;
 }
 
-/// Folds validated rows into a copy of the factor, on the AVX2 + FMA path
-/// when the CPU has it (with the `simd` feature; the kernels crate does the
-/// one `unsafe` call), else on the portable path. Both paths compute the
-/// same exact products, so they give the same bits; only speed differs.
+/// Folds validated rows `lo..hi` into a copy of `start`, on the AVX2 + FMA
+/// path when the CPU has it (with the `simd` feature; the kernels crate
+/// does the one `unsafe` call), else on the portable path. Both paths
+/// compute the same exact products, so they give the same bits; only speed
+/// differs.
 fn fold_dispatch<S: RowSource>(
-    s: &[f64],
-    p: usize,
+    start: &Work<1>,
     src: &S,
     ys: &[f64],
     ws: Option<&[f64]>,
+    lo: usize,
+    hi: usize,
 ) -> Work<1> {
     #[cfg(feature = "simd")]
     if FMA_DISPATCH.load(core::sync::atomic::Ordering::Relaxed) {
-        if let Some(w) =
-            plumbfit_kernels::dispatch::with_avx2_fma(|| fold_work::<S, true>(s, p, src, ys, ws))
-        {
+        if let Some(w) = plumbfit_kernels::dispatch::with_avx2_fma(|| {
+            fold_work::<S, true>(start, src, ys, ws, lo, hi)
+        }) {
             return w;
         }
     }
-    fold_work::<S, false>(s, p, src, ys, ws)
+    fold_work::<S, false>(start, src, ys, ws, lo, hi)
 }
 
-/// The body of [`fold_rows`]: inlined into each dispatch path so the whole
-/// update is compiled for that path's instruction set.
+/// The body of [`fold_dispatch`]: inlined into each dispatch path so the
+/// whole update is compiled for that path's instruction set.
 #[inline(always)]
 fn fold_work<S: RowSource, const FMA: bool>(
-    s: &[f64],
-    p: usize,
+    start: &Work<1>,
     src: &S,
     ys: &[f64],
     ws: Option<&[f64]>,
+    lo: usize,
+    hi: usize,
 ) -> Work<1> {
-    let n = ys.len();
+    let p = start.p;
     let weight = |r: usize| ws.map_or(1.0, |w| w[r]);
-    let mut main = Work::<1>::empty(p);
-    main.load_lane(0, s);
+    let mut main = start.clone();
     // The lane path keeps about 20 KiB of factors on the stack; without
     // `std` (small firmware stacks) blocks go row by row instead.
-    if n < LANE_MIN_ROWS || !cfg!(feature = "std") {
-        for r in 0..n {
+    if hi - lo < LANE_MIN_ROWS || !cfg!(feature = "std") {
+        for r in lo..hi {
             let mut o = Obs::<1>::zero();
             src.fill::<1, FMA>(r, 0, &mut o);
             o.yh[0] = ys[r];
@@ -1105,15 +1204,15 @@ fn fold_work<S: RowSource, const FMA: bool>(
         // Lane 0 continues the existing factor, the other lanes start
         // empty and are merged in at the end.
         let mut lanes = Work::<LANES>::empty(p);
-        lanes.load_lane(0, s);
+        lanes.set_lane(0, start);
         // One observation buffer for the whole block: `fill` overwrites
         // columns 0..p of every lane and `include` reads nothing beyond.
         let mut o = Obs::<LANES>::zero();
-        let mut r0 = 0;
-        while r0 < n {
+        let mut r0 = lo;
+        while r0 < hi {
             for l in 0..LANES {
                 let r = r0 + l;
-                if r < n {
+                if r < hi {
                     src.fill::<LANES, FMA>(r, l, &mut o);
                     o.yh[l] = ys[r];
                     o.wh[l] = weight(r);
@@ -1130,12 +1229,10 @@ fn fold_work<S: RowSource, const FMA: bool>(
             lanes.include::<FMA>(0, &mut o);
             r0 += LANES;
         }
-        let mut base = Work::<1>::empty(p);
-        copy_lane(&lanes, 0, &mut base);
+        copy_lane(&lanes, 0, &mut main);
         for l in 1..LANES {
-            base.absorb_lane::<LANES, FMA>(&lanes, l);
+            main.absorb_lane::<LANES, FMA>(&lanes, l);
         }
-        main = base;
     }
     main
 }
@@ -1356,6 +1453,7 @@ macro_rules! accumulator_methods {
                 },
                 &[y],
                 Some(&[w]),
+                1,
             )
         }
 
@@ -1403,7 +1501,7 @@ macro_rules! accumulator_methods {
         /// the block) and column; [`ModelError::Overflow`]. On error the
         /// state is unchanged.
         pub fn extend_rows(&mut self, rows: &[f64], ys: &[f64]) -> Result<(), ModelError> {
-            state_extend(&mut self.buf, self.p, rows, ys, None)
+            state_extend(&mut self.buf, self.p, rows, ys, None, 1)
         }
 
         /// Adds a block of weighted rows (see [`extend_rows`](Self::extend_rows)).
@@ -1418,7 +1516,32 @@ macro_rules! accumulator_methods {
             ys: &[f64],
             ws: &[f64],
         ) -> Result<(), ModelError> {
-            state_extend(&mut self.buf, self.p, rows, ys, Some(ws))
+            state_extend(&mut self.buf, self.p, rows, ys, Some(ws), 1)
+        }
+
+        /// [`extend_rows`](Self::extend_rows) (or, with `ws`, its weighted
+        /// form) with the work shared by up to `threads` threads; 0 means
+        /// one per available core. Blocks are folded in segments of 16 384
+        /// rows whatever the thread count, so the state is the same in
+        /// every bit as after `extend_rows` on the same block, for any
+        /// `threads`. Blocks of one segment or less run on this thread.
+        ///
+        /// # Errors
+        /// As [`extend_rows_weighted`](Self::extend_rows_weighted). On
+        /// error the state is unchanged.
+        #[cfg(feature = "std")]
+        pub fn extend_rows_threads(
+            &mut self,
+            rows: &[f64],
+            ys: &[f64],
+            ws: Option<&[f64]>,
+            threads: usize,
+        ) -> Result<(), ModelError> {
+            let threads = match threads {
+                0 => std::thread::available_parallelism().map_or(1, |n| n.get()),
+                t => t,
+            };
+            state_extend(&mut self.buf, self.p, rows, ys, ws, threads)
         }
 
         /// Multiplies the weight of every row seen so far by `lambda`

@@ -100,15 +100,28 @@ impl ModelAccumulator {
     /// A C-contiguous float64 `rows` matrix and float64 `y` are read in
     /// place; anything else is converted once. Large blocks are processed
     /// with the GIL released. The block is validated before anything is
-    /// added; errors name the offending row.
-    #[pyo3(signature = (rows, y, weights = None))]
+    /// added; errors name the offending row. `threads` caps the threads
+    /// sharing a large block (default: one per core; 1 keeps it on the
+    /// calling thread); the state is the same in every bit for any count.
+    #[pyo3(signature = (rows, y, weights = None, threads = None))]
     fn extend(
         &mut self,
         py: Python<'_>,
         rows: &Bound<'_, PyAny>,
         y: &Bound<'_, PyAny>,
         weights: Option<&Bound<'_, PyAny>>,
+        threads: Option<usize>,
     ) -> PyResult<()> {
+        // 0 would mean "one per core" to the core; here that is `None`.
+        let threads = match threads {
+            Some(0) => {
+                return Err(PyValueError::new_err(
+                    "threads must be at least 1 (None: one per core)",
+                ))
+            }
+            Some(t) => t,
+            None => 0,
+        };
         let m = arrays::matrix(rows, "rows")?;
         let shape = m.shape().to_vec();
         if shape[1] != self.inner.params() {
@@ -125,10 +138,7 @@ impl ModelAccumulator {
         let ys = yv.as_slice()?;
         let ws = wv.as_ref().map(|w| w.as_slice()).transpose()?;
         let inner = &mut self.inner;
-        let mut work = move || match ws {
-            None => inner.extend_rows(flat, ys),
-            Some(ws) => inner.extend_rows_weighted(flat, ys, ws),
-        };
+        let mut work = move || inner.extend_rows_threads(flat, ys, ws, threads);
         let r = if flat.len() >= GIL_RELEASE_PAIRS {
             py.detach(work)
         } else {
