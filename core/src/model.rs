@@ -125,7 +125,7 @@ const LANE_MIN_ROWS: usize = 64;
 /// state, each later one is folded from an empty factor and then merged in,
 /// in order. Fixed, so that spreading the segments over threads changes
 /// nothing in the result; large enough that the merges cost well under
-/// 1 % (p + LANES − 1 merged rows per segment), small enough that a
+/// 1 % (up to LANES · p merged rows per segment), small enough that a
 /// 2 × 10⁵-row block still splits over several threads.
 const SEGMENT_ROWS: usize = 16_384;
 
@@ -1105,6 +1105,7 @@ fn fold_segments<S: RowSource + Sync>(
         }
         return main;
     }
+    #[cfg(not(feature = "std"))]
     let _ = threads;
     let mut main = seg(0, &start);
     for k in 1..segs {
