@@ -7,6 +7,8 @@
 //! * [`moments`]: the pair-moment accumulator ([`PairMoments`]) in a lean
 //!   tier (second moments) and a full tier (co-moments to order 4, lag-1
 //!   difference sums, extremes). Push, extend, merge and forget; no heap.
+//!   [`LeanMoments::feed`] borrows a lean accumulator for tight loops of
+//!   pushes ([`PairFeed`]).
 //! * [`line`](mod@line): the straight-line fit and its inference ([`LineFit`]).
 //! * [`model`]: streaming least squares for p-parameter linear and
 //!   polynomial models (double-double Givens; caller storage available).
@@ -74,7 +76,9 @@ pub use calib::CalibError;
 pub use diag::DiagError;
 pub use line::{FitOptions, LineError, LineFit, WeightMeaning};
 pub use model::{ModelError, ModelFit, ModelMoments};
-pub use moments::{Full, FullMoments, Lean, LeanMoments, MomentsError, PairMoments, Tier};
+pub use moments::{
+    Full, FullMoments, Lean, LeanMoments, MomentsError, PairFeed, PairMoments, Tier,
+};
 
 // The README's Rust snippets are compiled and run as doc tests.
 #[cfg(doctest)]

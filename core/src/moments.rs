@@ -37,6 +37,9 @@ use crate::dd::{two_prod, two_sum};
 use crate::kernel::{self, FullChunk, LeanChunk, CHUNK, LONG_CHUNK};
 use core::fmt::Debug;
 
+mod feed;
+pub use feed::PairFeed;
+
 /// Number of pairs held raw before the frame is fitted.
 pub const STAGE: usize = 8;
 
@@ -739,8 +742,14 @@ impl<T: Tier> PairMoments<T> {
     /// The moments with the pending block (open) folded in; see
     /// [`Self::fold_pending`].
     fn folded(&self) -> Result<Folded, MomentsError> {
-        let k = self.pend_len();
-        let [s_x, s_v, s_xx, s_xv, s_vv] = self.pending_sums();
+        self.folded_with(self.pend_len(), self.pending_sums())
+    }
+
+    /// The moments with a block of `k > 0` unit-weight pairs folded in,
+    /// given its sums `[Σd, Σe, Σd², Σd·e, Σe²]` of offsets from the
+    /// state's means (the pending block's, or a feed's).
+    fn folded_with(&self, k: u16, sums: [f64; 5]) -> Result<Folded, MomentsError> {
+        let [s_x, s_v, s_xx, s_xv, s_vv] = sums;
         let n = k as f64;
         // The block's mean offsets from the state's means, and its centred
         // moments (exact values are non-negative; a negative one is
