@@ -1,4 +1,4 @@
-//! Criterion benches: push (both tiers), extend (both tiers) at n = 10³…10⁷,
+//! Criterion benches: push (both tiers, and lean through a feed), extend (both tiers) at n = 10³…10⁷,
 //! merge, and the model accumulator for p = 2, 4, 8, 12. Each extend group
 //! also measures every plain read loop at the same n (the read ceiling is
 //! the fastest of them), so criterion's throughput figures can be read as
@@ -50,6 +50,18 @@ fn push_all<T: Tier>(xs: &[f64], ys: &[f64]) -> PairMoments<T> {
     a
 }
 
+fn feed_all(xs: &[f64], ys: &[f64]) -> LeanMoments {
+    let mut a = LeanMoments::new();
+    {
+        let mut feed = a.feed();
+        for (&x, &y) in xs.iter().zip(ys) {
+            let ok = feed.push(x, y).is_ok();
+            assert!(ok, "feed refused benchmark data");
+        }
+    }
+    a
+}
+
 fn bench_push(c: &mut Criterion) {
     let mut g = c.benchmark_group("push");
     let n = 100_000;
@@ -60,6 +72,9 @@ fn bench_push(c: &mut Criterion) {
     });
     g.bench_function("lean", |b| {
         b.iter(|| push_all::<plumbfit::Lean>(black_box(&xs), black_box(&ys)))
+    });
+    g.bench_function("lean_feed", |b| {
+        b.iter(|| feed_all(black_box(&xs), black_box(&ys)))
     });
     g.bench_function("full", |b| {
         b.iter(|| push_all::<plumbfit::Full>(black_box(&xs), black_box(&ys)))
