@@ -6,27 +6,17 @@
 
 #[path = "support/exact.rs"]
 mod exact;
+#[path = "support/lean_check.rs"]
+mod lean_check;
 #[path = "common/nist.rs"]
 mod nist;
 
 use exact::{f, rel, ExactMoments};
+use lean_check::{assert_near_exact, offset_data};
 use plumbfit::{LeanMoments, MomentsError};
 
 /// Pairs per feed block (documented on `PairFeed`).
 const BLOCK: usize = 4096;
-
-/// Invented offset readings: x near 5e8, y on a line with dyadic noise.
-fn offset_data(n: usize) -> (Vec<f64>, Vec<f64>) {
-    let xs: Vec<f64> = (0..n)
-        .map(|i| 5e8 + ((i * 37) % 101) as f64 * 0.25)
-        .collect();
-    let ys: Vec<f64> = xs
-        .iter()
-        .enumerate()
-        .map(|(i, x)| 1.5 * x - 20.0 + ((i * 13) % 7) as f64 * 0.0625)
-        .collect();
-    (xs, ys)
-}
 
 /// Invented drift: x a time ramp, so every block lies far from the
 /// running mean.
@@ -63,23 +53,7 @@ fn fed(xs: &[f64], ys: &[f64]) -> LeanMoments {
 /// relative to what a block adds, a few thousand terms per sum; 1e-11
 /// leaves a wide margin.
 fn check_exact(xs: &[f64], ys: &[f64], what: &str) {
-    let a = fed(xs, ys);
-    let e = ExactMoments::new(xs, ys, None);
-    assert_eq!(a.count(), xs.len() as u64, "{what}");
-    let s = a.summary().unwrap();
-    let (b, c) = a.slope_intercept().unwrap();
-    for (got, want, name) in [
-        (s.mean_x, f(&e.mean_x), "mean x"),
-        (s.mean_y, f(&e.mean_y), "mean y"),
-        (s.sxx, f(&e.sxx), "sxx"),
-        (s.sxy, f(&e.sxy), "sxy"),
-        (s.syy, f(&e.syy), "syy"),
-        (b, f(&e.slope()), "slope"),
-        (c, f(&e.intercept()), "intercept"),
-    ] {
-        let r = rel(got, want);
-        assert!(r < 1e-11, "{what}: {name} {got} vs {want}, rel {r:e}");
-    }
+    assert_near_exact(&fed(xs, ys), xs, ys, 1e-11, what);
 }
 
 #[test]

@@ -7,23 +7,12 @@
 
 #[path = "support/exact.rs"]
 mod exact;
+#[path = "support/lean_check.rs"]
+mod lean_check;
 
-use exact::{f, rel, ExactMoments};
+use lean_check::{assert_near_exact, offset_data};
 use plumbfit::moments::PENDING_BLOCK;
 use plumbfit::{FitOptions, LeanMoments, MomentsError};
-
-/// Invented offset readings: x near 5e8, y on a line with dyadic noise.
-fn offset_data(n: usize) -> (Vec<f64>, Vec<f64>) {
-    let xs: Vec<f64> = (0..n)
-        .map(|i| 5e8 + ((i * 37) % 101) as f64 * 0.25)
-        .collect();
-    let ys: Vec<f64> = xs
-        .iter()
-        .enumerate()
-        .map(|(i, x)| 1.5 * x - 20.0 + ((i * 13) % 7) as f64 * 0.0625)
-        .collect();
-    (xs, ys)
-}
 
 fn pushed(xs: &[f64], ys: &[f64]) -> LeanMoments {
     let mut a = LeanMoments::new();
@@ -110,21 +99,7 @@ fn refused_pushes_leave_an_open_block_unchanged() {
 /// 2^-52 per rounding and sums of a few thousand terms, 1e-11 relative
 /// leaves a margin of 10 over that worst case on every figure below.
 fn check_exact(xs: &[f64], ys: &[f64], what: &str) {
-    let a = pushed(xs, ys);
-    let e = ExactMoments::new(xs, ys, None);
-    let s = a.summary().unwrap();
-    let (b, c) = a.slope_intercept().unwrap();
-    for (got, want, name) in [
-        (s.mean_x, f(&e.mean_x), "mean x"),
-        (s.mean_y, f(&e.mean_y), "mean y"),
-        (s.sxx, f(&e.sxx), "sxx"),
-        (s.sxy, f(&e.sxy), "sxy"),
-        (b, f(&e.slope()), "slope"),
-        (c, f(&e.intercept()), "intercept"),
-    ] {
-        let r = rel(got, want);
-        assert!(r < 1e-11, "{what}: {name} {got} vs {want}, rel {r:e}");
-    }
+    assert_near_exact(&pushed(xs, ys), xs, ys, 1e-11, what);
 }
 
 #[test]
