@@ -17,8 +17,9 @@ use crate::kernel::LONG_CHUNK;
 /// The feed refuses what `push` refuses, with the same errors. It folds
 /// its block into the accumulator every 4096 pairs (as many as a chunk of
 /// `extend`) and when it is dropped. The result equals pushing the same
-/// pairs one by one up to rounding: the block's sums are formed about
-/// another centre and added in another order, so the bits may differ. A
+/// pairs one by one up to rounding: its blocks are longer than the
+/// pending block's 256 pairs, so their sums are taken about the means at
+/// other moments and added in another order, and the bits may differ. A
 /// refused pair leaves the accumulator and the open block as they were.
 /// Forgetting the feed (`core::mem::forget`) loses its open block.
 ///
