@@ -1116,7 +1116,8 @@ fn fold_segments<S: RowSource + Sync>(
 
 /// Runs `job(k)` for `k` in `0..count` on up to `threads` scoped threads
 /// (the caller's among them), contiguous runs of `k` per thread, and
-/// returns the results in `k` order.
+/// returns the results in `k` order. A run whose thread the system cannot
+/// start runs on the caller's thread instead (same results, no panic).
 #[cfg(feature = "std")]
 fn par_segments<T: Send, F: Fn(usize) -> T + Sync>(count: usize, threads: usize, job: F) -> Vec<T> {
     let t = threads.min(count).max(1);
@@ -1126,13 +1127,18 @@ fn par_segments<T: Send, F: Fn(usize) -> T + Sync>(count: usize, threads: usize,
         let handles: Vec<_> = (1..t)
             .map(|i| {
                 let run = &run;
-                scope.spawn(move || run(bound(i), bound(i + 1)))
+                let started = std::thread::Builder::new()
+                    .spawn_scoped(scope, move || run(bound(i), bound(i + 1)));
+                (i, started.ok())
             })
             .collect();
         let mut out = run(0, bound(1));
-        for h in handles {
-            // A panic in a worker is a bug in this module; pass it on.
-            out.extend(h.join().unwrap_or_else(|e| std::panic::resume_unwind(e)));
+        for (i, h) in handles {
+            out.extend(match h {
+                // A panic in a worker is a bug in this module; pass it on.
+                Some(h) => h.join().unwrap_or_else(|e| std::panic::resume_unwind(e)),
+                None => run(bound(i), bound(i + 1)),
+            });
         }
         out
     })
