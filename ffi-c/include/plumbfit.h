@@ -2348,6 +2348,50 @@ pf_status pf_model_extend_weighted(pf_model *m,
                                    size_t n);
 
 /*
+ Adds `n` rows as `pf_model_extend` does, with the work shared by up to
+ `threads` threads (0: one per available core; the calling thread is
+ one of them and returns when all are done). Rows are folded in fixed
+ segments of 16 384 whatever the count, so the state is the same in
+ every bit as after `pf_model_extend` on the same rows, for any
+ `threads`; a block of one segment or less runs on the calling thread.
+ Unlike `pf_model_extend`, this call allocates a little (thread handles
+ and one partial factor per segment). The state is committed only at the
+ end: on error it is unchanged.
+
+ A thread the system cannot start leaves its share to the calling
+ thread (same result).
+
+ Errors: as `pf_model_extend`. Needs exclusive access.
+
+ # Safety
+ As `pf_model_extend`.
+ */
+pf_status pf_model_extend_threads(pf_model *m,
+                                  const double *rows,
+                                  size_t rows_len,
+                                  const double *ys,
+                                  size_t n,
+                                  size_t threads);
+
+/*
+ Adds `n` weighted rows as `pf_model_extend_weighted` does, shared over
+ threads as `pf_model_extend_threads` describes (same bits for any
+ `threads`).
+
+ Errors: as `pf_model_extend_weighted`. Needs exclusive access.
+
+ # Safety
+ As `pf_model_extend_weighted`.
+ */
+pf_status pf_model_extend_weighted_threads(pf_model *m,
+                                           const double *rows,
+                                           size_t rows_len,
+                                           const double *ys,
+                                           const double *ws,
+                                           size_t n,
+                                           size_t threads);
+
+/*
  Multiplies the weight of every row so far by `lambda` in (0, 1].
 
  Errors: `PF_ERR_MODEL_FORGETTING`, `PF_ERR_MODEL_OVERFLOW` if the

@@ -649,6 +649,75 @@ pub unsafe extern "C" fn pf_model_extend_weighted(
     unsafe { with_mut(m, |c| c.extend_rows_weighted(rows, ys, ws)) }
 }
 
+/// Adds `n` rows as `pf_model_extend` does, with the work shared by up to
+/// `threads` threads (0: one per available core; the calling thread is
+/// one of them and returns when all are done). Rows are folded in fixed
+/// segments of 16 384 whatever the count, so the state is the same in
+/// every bit as after `pf_model_extend` on the same rows, for any
+/// `threads`; a block of one segment or less runs on the calling thread.
+/// Unlike `pf_model_extend`, this call allocates a little (thread handles
+/// and one partial factor per segment). The state is committed only at the
+/// end: on error it is unchanged.
+///
+/// A thread the system cannot start leaves its share to the calling
+/// thread (same result).
+///
+/// Errors: as `pf_model_extend`. Needs exclusive access.
+///
+/// # Safety
+/// As `pf_model_extend`.
+#[no_mangle]
+pub unsafe extern "C" fn pf_model_extend_threads(
+    m: *mut pf_model,
+    rows: *const f64,
+    rows_len: usize,
+    ys: *const f64,
+    n: usize,
+    threads: usize,
+) -> pf_status {
+    if m.is_null() {
+        return PF_ERR_NULL_POINTER;
+    }
+    // SAFETY: forwarded contract.
+    let (rows, ys) = match unsafe { (slice_in(rows, rows_len), slice_in(ys, n)) } {
+        (Ok(r), Ok(y)) => (r, y),
+        (Err(e), _) | (_, Err(e)) => return e,
+    };
+    // SAFETY: forwarded contract.
+    unsafe { with_mut(m, |c| c.extend_rows_threads(rows, ys, None, threads)) }
+}
+
+/// Adds `n` weighted rows as `pf_model_extend_weighted` does, shared over
+/// threads as `pf_model_extend_threads` describes (same bits for any
+/// `threads`).
+///
+/// Errors: as `pf_model_extend_weighted`. Needs exclusive access.
+///
+/// # Safety
+/// As `pf_model_extend_weighted`.
+#[no_mangle]
+pub unsafe extern "C" fn pf_model_extend_weighted_threads(
+    m: *mut pf_model,
+    rows: *const f64,
+    rows_len: usize,
+    ys: *const f64,
+    ws: *const f64,
+    n: usize,
+    threads: usize,
+) -> pf_status {
+    if m.is_null() {
+        return PF_ERR_NULL_POINTER;
+    }
+    // SAFETY: forwarded contract.
+    let s = unsafe { (slice_in(rows, rows_len), slice_in(ys, n), slice_in(ws, n)) };
+    let (rows, ys, ws) = match s {
+        (Ok(r), Ok(y), Ok(w)) => (r, y, w),
+        (Err(e), _, _) | (_, Err(e), _) | (_, _, Err(e)) => return e,
+    };
+    // SAFETY: forwarded contract.
+    unsafe { with_mut(m, |c| c.extend_rows_threads(rows, ys, Some(ws), threads)) }
+}
+
 /// Multiplies the weight of every row so far by `lambda` in (0, 1].
 ///
 /// Errors: `PF_ERR_MODEL_FORGETTING`, `PF_ERR_MODEL_OVERFLOW` if the

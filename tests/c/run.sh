@@ -14,7 +14,7 @@ cargo run -q --release -p plumbfit-ffi --example parity_values > "$OUT/parity_va
 STATIC_LIBS="$(sed -n 's/^Libs.private: //p' ffi-c/plumbfit.pc)"
 CFLAGS_C="-std=c99 -Wall -Wextra -Werror -pedantic -g -O1"
 CFLAGS_CXX="-std=c++11 -Wall -Wextra -Werror -pedantic -g -O1"
-VG="valgrind -q --error-exitcode=1 --leak-check=full --errors-for-leak-kinds=all --show-leak-kinds=all"
+VG="valgrind -q --error-exitcode=1 --leak-check=full --errors-for-leak-kinds=all --show-leak-kinds=all --suppressions=tests/c/valgrind.supp"
 for t in test_line test_null; do
   # shellcheck disable=SC2086
   gcc $CFLAGS_C -I ffi-c/include "tests/c/$t.c" "$LIB/libplumbfit.a" $STATIC_LIBS -o "$OUT/$t"

@@ -275,6 +275,14 @@ OP(m_extw_bad_w1, pf_model_extend_weighted(f->model, rows_ok, 2 * P, ys2, ws2_ba
 OP(m_extw_nan_w1, pf_model_extend_weighted(f->model, rows_ok, 2 * P, ys2, ws2_nan, 2))
 OP(m_extw_mismatch, pf_model_extend_weighted(f->model, rows_ok, P, ys2, ONES, 2))
 OP(m_extw_nan_row1, pf_model_extend_weighted(f->model, rows_nan, 2 * P, ys2, ONES, 2))
+OP(m_extt_mismatch, pf_model_extend_threads(f->model, rows_ok, 2 * P - 1, ys2, 2, 2))
+OP(m_extt_empty, pf_model_extend_threads(f->model, rows_ok, 0, ys2, 0, 2))
+OP(m_extt_nan_row1, pf_model_extend_threads(f->model, rows_nan, 2 * P, ys2, 2, 0))
+OP(m_extt_nan_y1, pf_model_extend_threads(f->model, rows_ok, 2 * P, ys2_nan, 2, 2))
+OP(m_extt_huge, pf_model_extend_threads(f->model, rows_huge, 2 * P, ys2, 2, 3))
+OP(m_exttw_bad_w1, pf_model_extend_weighted_threads(f->model, rows_ok, 2 * P, ys2, ws2_bad, 2, 2))
+OP(m_exttw_nan_w1, pf_model_extend_weighted_threads(f->model, rows_ok, 2 * P, ys2, ws2_nan, 2, 0))
+OP(m_exttw_mismatch, pf_model_extend_weighted_threads(f->model, rows_ok, P, ys2, ONES, 2, 2))
 OP(m_forget_0, pf_model_forget(f->model, 0.0))
 OP(m_forget_neg, pf_model_forget(f->model, -0.5))
 OP(m_forget_gt1, pf_model_forget(f->model, 1.5))
@@ -482,6 +490,14 @@ static const struct hcase hcases[] = {
     {"model extend_weighted w nan at 1", K_MODEL, S_ALL, m_extw_nan_w1, PF_ERR_MODEL_INVALID_WEIGHT},
     {"model extend_weighted rows_len != n*p", K_MODEL, S_ALL, m_extw_mismatch, PF_ERR_MODEL_DIMENSION},
     {"model extend_weighted nan in row 1", K_MODEL, S_ALL, m_extw_nan_row1, PF_ERR_MODEL_NON_FINITE},
+    {"model extend_threads rows_len != n*p", K_MODEL, S_ALL, m_extt_mismatch, PF_ERR_MODEL_DIMENSION},
+    {"model extend_threads n 0", K_MODEL, S_ALL, m_extt_empty, PF_ERR_EMPTY_INPUT},
+    {"model extend_threads nan in row 1", K_MODEL, S_ALL, m_extt_nan_row1, PF_ERR_MODEL_NON_FINITE},
+    {"model extend_threads nan y at 1", K_MODEL, S_ALL, m_extt_nan_y1, PF_ERR_MODEL_NON_FINITE},
+    {"model extend_threads 1e300 in row 1", K_MODEL, S_ALL, m_extt_huge, PF_ERR_MODEL_OVERFLOW},
+    {"model extend_weighted_threads w -1 at 1", K_MODEL, S_ALL, m_exttw_bad_w1, PF_ERR_MODEL_INVALID_WEIGHT},
+    {"model extend_weighted_threads w nan at 1", K_MODEL, S_ALL, m_exttw_nan_w1, PF_ERR_MODEL_INVALID_WEIGHT},
+    {"model extend_weighted_threads rows_len != n*p", K_MODEL, S_ALL, m_exttw_mismatch, PF_ERR_MODEL_DIMENSION},
     {"model forget 0", K_MODEL, S_ALL, m_forget_0, PF_ERR_MODEL_FORGETTING},
     {"model forget -0.5", K_MODEL, S_ALL, m_forget_neg, PF_ERR_MODEL_FORGETTING},
     {"model forget 1.5", K_MODEL, S_ALL, m_forget_gt1, PF_ERR_MODEL_FORGETTING},

@@ -350,6 +350,16 @@ int main(void) {
         EXPECT(pf_model_extend_weighted(mm, rows, 8, NULL, ws, 4), NP);
         EXPECT(pf_model_extend_weighted(mm, rows, 8, ys, NULL, 4), NP);
         EXPECT(pf_model_extend_weighted(mm, rows, 8, ys, ws, 3), PF_ERR_MODEL_DIMENSION);
+        EXPECT(pf_model_extend_threads(NULL, rows, 8, ys, 4, 2), NP);
+        EXPECT(pf_model_extend_threads(mm, NULL, 8, ys, 4, 2), NP);
+        EXPECT(pf_model_extend_threads(mm, rows, 8, NULL, 4, 2), NP);
+        EXPECT(pf_model_extend_threads(mm, rows, 0, ys, 0, 2), PF_ERR_EMPTY_INPUT);
+        EXPECT(pf_model_extend_threads(mm, rows, SIZE_MAX, ys, 4, 2), PF_ERR_BAD_ARGUMENT);
+        EXPECT(pf_model_extend_weighted_threads(NULL, rows, 8, ys, ws, 4, 2), NP);
+        EXPECT(pf_model_extend_weighted_threads(mm, NULL, 8, ys, ws, 4, 2), NP);
+        EXPECT(pf_model_extend_weighted_threads(mm, rows, 8, NULL, ws, 4, 2), NP);
+        EXPECT(pf_model_extend_weighted_threads(mm, rows, 8, ys, NULL, 4, 2), NP);
+        EXPECT(pf_model_extend_weighted_threads(mm, rows, 8, ys, ws, 3, 0), PF_ERR_MODEL_DIMENSION);
         EXPECT(pf_model_forget(NULL, 0.5), NP);
         EXPECT(pf_model_merge(NULL, mm), NP);
         EXPECT(pf_model_merge(mm, NULL), NP);
