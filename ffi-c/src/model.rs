@@ -589,6 +589,43 @@ pub unsafe extern "C" fn pf_model_push_powers(
     unsafe { with_mut(m, |c| c.push_powers(x, y, w)) }
 }
 
+/// The body of the four model extends: checks the handle and the arrays
+/// (rows, then responses, then weights, first error returned) and folds
+/// the rows on up to `threads` threads (1: the calling thread only; 0: one
+/// per core). The result is the same in every bit for any `threads`.
+///
+/// # Safety
+/// `m` NULL or a live handle; `rows` NULL or valid for `rows_len`
+/// doubles; `ys` and a `ws` pointer NULL or valid for `n` doubles.
+unsafe fn extend_on(
+    m: *mut pf_model,
+    rows: *const f64,
+    rows_len: usize,
+    ys: *const f64,
+    ws: Option<*const f64>,
+    n: usize,
+    threads: usize,
+) -> pf_status {
+    if m.is_null() {
+        return PF_ERR_NULL_POINTER;
+    }
+    // SAFETY: forwarded contract.
+    let (rows, ys) = match unsafe { (slice_in(rows, rows_len), slice_in(ys, n)) } {
+        (Ok(r), Ok(y)) => (r, y),
+        (Err(e), _) | (_, Err(e)) => return e,
+    };
+    let ws = match ws {
+        None => None,
+        // SAFETY: forwarded contract.
+        Some(w) => match unsafe { slice_in(w, n) } {
+            Ok(w) => Some(w),
+            Err(e) => return e,
+        },
+    };
+    // SAFETY: forwarded contract.
+    unsafe { with_mut(m, |c| c.extend_rows_threads(rows, ys, ws, threads)) }
+}
+
 /// Adds `n` rows: `rows` is row-major with `rows_len` = n * p values, `ys`
 /// has `n` responses. The block is validated before anything is added.
 ///
@@ -609,16 +646,8 @@ pub unsafe extern "C" fn pf_model_extend(
     ys: *const f64,
     n: usize,
 ) -> pf_status {
-    if m.is_null() {
-        return PF_ERR_NULL_POINTER;
-    }
     // SAFETY: forwarded contract.
-    let (rows, ys) = match unsafe { (slice_in(rows, rows_len), slice_in(ys, n)) } {
-        (Ok(r), Ok(y)) => (r, y),
-        (Err(e), _) | (_, Err(e)) => return e,
-    };
-    // SAFETY: forwarded contract.
-    unsafe { with_mut(m, |c| c.extend_rows(rows, ys)) }
+    unsafe { extend_on(m, rows, rows_len, ys, None, n, 1) }
 }
 
 /// Adds `n` weighted rows; see `pf_model_extend`. `ws` has `n` weights.
@@ -636,17 +665,8 @@ pub unsafe extern "C" fn pf_model_extend_weighted(
     ws: *const f64,
     n: usize,
 ) -> pf_status {
-    if m.is_null() {
-        return PF_ERR_NULL_POINTER;
-    }
     // SAFETY: forwarded contract.
-    let s = unsafe { (slice_in(rows, rows_len), slice_in(ys, n), slice_in(ws, n)) };
-    let (rows, ys, ws) = match s {
-        (Ok(r), Ok(y), Ok(w)) => (r, y, w),
-        (Err(e), _, _) | (_, Err(e), _) | (_, _, Err(e)) => return e,
-    };
-    // SAFETY: forwarded contract.
-    unsafe { with_mut(m, |c| c.extend_rows_weighted(rows, ys, ws)) }
+    unsafe { extend_on(m, rows, rows_len, ys, Some(ws), n, 1) }
 }
 
 /// Adds `n` rows as `pf_model_extend` does, with the work shared by up to
@@ -675,16 +695,8 @@ pub unsafe extern "C" fn pf_model_extend_threads(
     n: usize,
     threads: usize,
 ) -> pf_status {
-    if m.is_null() {
-        return PF_ERR_NULL_POINTER;
-    }
     // SAFETY: forwarded contract.
-    let (rows, ys) = match unsafe { (slice_in(rows, rows_len), slice_in(ys, n)) } {
-        (Ok(r), Ok(y)) => (r, y),
-        (Err(e), _) | (_, Err(e)) => return e,
-    };
-    // SAFETY: forwarded contract.
-    unsafe { with_mut(m, |c| c.extend_rows_threads(rows, ys, None, threads)) }
+    unsafe { extend_on(m, rows, rows_len, ys, None, n, threads) }
 }
 
 /// Adds `n` weighted rows as `pf_model_extend_weighted` does, shared over
@@ -705,17 +717,8 @@ pub unsafe extern "C" fn pf_model_extend_weighted_threads(
     n: usize,
     threads: usize,
 ) -> pf_status {
-    if m.is_null() {
-        return PF_ERR_NULL_POINTER;
-    }
     // SAFETY: forwarded contract.
-    let s = unsafe { (slice_in(rows, rows_len), slice_in(ys, n), slice_in(ws, n)) };
-    let (rows, ys, ws) = match s {
-        (Ok(r), Ok(y), Ok(w)) => (r, y, w),
-        (Err(e), _, _) | (_, Err(e), _) | (_, _, Err(e)) => return e,
-    };
-    // SAFETY: forwarded contract.
-    unsafe { with_mut(m, |c| c.extend_rows_threads(rows, ys, Some(ws), threads)) }
+    unsafe { extend_on(m, rows, rows_len, ys, Some(ws), n, threads) }
 }
 
 /// Multiplies the weight of every row so far by `lambda` in (0, 1].
