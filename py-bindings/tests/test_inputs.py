@@ -3,6 +3,7 @@ right Python exception, and large inputs processed without the GIL."""
 
 from __future__ import annotations
 
+import sys
 import threading
 import time
 import tracemalloc
@@ -115,14 +116,10 @@ def test_wrong_shape_is_value_error_with_shape() -> None:
     assert acc.count == 0
 
 
-def test_extend_releases_the_gil() -> None:
-    # A Python thread can only run while the GIL is free. Ticks it records
-    # in the middle of a long extend() prove the call released the GIL (a
-    # held GIL allows switches only at the call's edges).
-    # Big enough that even an idle machine spends well over 30 ms (the full
-    # tier runs at ~250 M pairs/s, so 8e6 pairs took only 29 ms there).
-    n = 24_000_000
-    assert n >= plumbfit.GIL_RELEASE_PAIRS
+def _ticks_during_extend(n: int) -> tuple[float, int, int]:
+    """Extends a full-tier accumulator by n pairs while a second thread
+    records ticks; returns the call's span, the ticks in its middle half
+    and the accumulator's count."""
     x = np.linspace(0.0, 1.0, n)
     y = 0.5 * x
     acc = plumbfit.LineAccumulator("full")  # the slower tier: a longer call
@@ -145,10 +142,32 @@ def test_extend_releases_the_gil() -> None:
         stop.set()
         t.join()
     span = t1 - t0
-    assert span > 0.03, f"extend too short to judge ({span:.3f} s)"
     middle = [s for s in ticks if t0 + 0.25 * span < s < t0 + 0.75 * span]
-    assert len(middle) > 10, f"{len(middle)} ticks in the middle of a {span:.3f} s extend"
-    assert acc.count == n
+    return span, len(middle), acc.count
+
+
+def test_extend_releases_the_gil() -> None:
+    # A Python thread can only run while the GIL is free. Ticks it records
+    # in the middle of a long extend() prove the call released the GIL: a
+    # held GIL allows switches only at the call's edges, and a short switch
+    # interval keeps those edges well under a quarter of the call. The full
+    # tier ran at 250 M to 1 G pairs/s on the machines measured, so the size
+    # grows until the call is long enough to judge.
+    old = sys.getswitchinterval()
+    sys.setswitchinterval(1e-4)
+    try:
+        n = 24_000_000
+        assert n >= plumbfit.GIL_RELEASE_PAIRS
+        for _ in range(3):
+            span, middle, count = _ticks_during_extend(n)
+            assert count == n
+            if span > 0.01:
+                break
+            n *= 3
+    finally:
+        sys.setswitchinterval(old)
+    assert span > 0.01, f"extend too short to judge ({span:.3f} s at {n} pairs)"
+    assert middle > 10, f"{middle} ticks in the middle of a {span:.3f} s extend"
 
 
 def test_push_does_not_convert() -> None:
